@@ -512,6 +512,8 @@ def validate(train: GearTrain, *, n_channels: int | None = None) -> list[Problem
 
     # --- meshes -------------------------------------------------------------
     edges: list[tuple[str, str, float, int, str, str]] = []  # (a, b, f_b/f_a, dir, label, path)
+    touched: set[str] = set()   # shafts some mesh or stage refers to (even if it has other problems)
+    incomplete = False          # some mesh or stage could not join the speed graph
     _check_duplicates(c, "meshes", train.meshes)
     for i, m in enumerate(train.meshes):
         p = f"meshes[{i}]"
@@ -520,6 +522,8 @@ def validate(train: GearTrain, *, n_channels: int | None = None) -> list[Problem
         ok_b = shaft_ref(f"{p}.driven", m.driven)
         ok_za = c.positive_int(f"{p}.driver_teeth", m.driver_teeth, "teeth")
         ok_zb = c.positive_int(f"{p}.driven_teeth", m.driven_teeth, "teeth")
+        touched.update(x for x, ok in ((m.driver, ok_a), (m.driven, ok_b)) if ok)
+        incomplete |= not (ok_a and ok_b and ok_za and ok_zb)
         if ok_a and ok_b and m.driver == m.driven:
             c.add(f"{p}.driven", f"is the same shaft as the driver ({m.driver!r}); a mesh joins two different shafts")
         elif ok_a and ok_b and ok_za and ok_zb:
@@ -550,6 +554,8 @@ def validate(train: GearTrain, *, n_channels: int | None = None) -> list[Problem
                 c.add(f"{p}.planets",
                       f"{g.planets} planets of {g.planet_teeth} teeth around a {g.sun_teeth}-tooth sun would "
                       "touch each other; check the planet count and tooth counts", "warning")
+        touched.update(x for x, ok in ((g.sun_shaft, ok_s), (g.carrier_shaft, ok_c)) if ok)
+        incomplete |= not (ok_s and ok_c and ok_zs and ok_zr)
         if ok_s and ok_c and g.sun_shaft == g.carrier_shaft:
             c.add(f"{p}.carrier_shaft", f"is the same shaft as the sun ({g.sun_shaft!r}); sun and carrier turn on different shafts")
         elif ok_s and ok_c and ok_zs and ok_zr:
@@ -574,7 +580,7 @@ def validate(train: GearTrain, *, n_channels: int | None = None) -> list[Problem
             c.add(f"{p}.contact_angle_deg", f"must be an angle from 0 to 45 degrees, got {a!r}")
 
     # --- graph: connections and loop consistency ----------------------------
-    _check_graph(c, train, shaft_names, edges, t.shaft if tach_shaft_ok else None)
+    _check_graph(c, shaft_names, edges, touched, incomplete, t.shaft if tach_shaft_ok else None)
     return c.problems
 
 
@@ -591,7 +597,13 @@ def _check_duplicates(c: _Checker, section: str, items: tuple) -> None:
             seen[name] = i
 
 
-def _check_graph(c: _Checker, train: GearTrain, shaft_names: list[str], edges: list, reference: str | None) -> None:
+def _check_graph(c: _Checker, shaft_names: list[str], edges: list, touched: set[str],
+                 incomplete: bool, reference: str | None) -> None:
+    """Report unconnected shafts and loops whose speed ratios disagree.
+
+    ``incomplete`` (some mesh or stage has bad fields) suppresses the
+    reachability report, which would only repeat those problems.
+    """
     if not shaft_names:
         c.add("shafts", "the model has no shafts; add at least one [[shafts]] block")
         return
@@ -602,7 +614,7 @@ def _check_graph(c: _Checker, train: GearTrain, shaft_names: list[str], edges: l
     index = {n: i for i, n in enumerate(shaft_names)}
     if len(shaft_names) > 1:
         for n in shaft_names:
-            if not adjacency[n]:
+            if n not in touched:
                 c.add(f"shafts[{index[n]}].name",
                       f"shaft {n!r} is connected to nothing; add a mesh or planetary stage that uses it, or remove it")
     start = reference if reference is not None else shaft_names[0]
@@ -629,7 +641,7 @@ def _check_graph(c: _Checker, train: GearTrain, shaft_names: list[str], edges: l
                 c.add(path, f"the {label} closes a loop that makes shaft {b!r} turn both ways at once "
                             "(such a train would lock); check the connections")
     for n in shaft_names:
-        if n not in rate and adjacency[n]:
+        if n not in rate and n in touched and not incomplete:
             c.add(f"shafts[{index[n]}].name",
                   f"shaft {n!r} is not connected to shaft {start!r}, so its speed is unknown; "
                   "add the mesh or planetary stage that links them")
