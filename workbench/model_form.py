@@ -1,0 +1,569 @@
+"""The side form where the analyst types and edits the gear-train model.
+
+:class:`ModelForm` keeps every field as typed, rebuilds a draft
+:class:`~dsp.model.GearTrain` ~150 ms after each edit, checks it with
+:func:`dsp.model.validate`, marks each field that has a problem (coloured cell or
+widget, message in its tooltip) and lists the messages under the form.  When the
+draft has no errors it becomes the current model and :attr:`ModelForm.model_changed`
+is emitted.
+
+Renaming a shaft (editing its name in the Shafts table) renames every reference to
+it (tach, meshes, planetary stages, bearings).  Removing a shaft leaves the
+references as they are; they are then marked as naming an unknown shaft.
+
+:class:`FrequencyTableView` (read-only table of characteristic frequencies) lives
+in :mod:`workbench.model_form_freq` and is re-exported here.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from PySide6.QtCore import Qt, QTimer, Signal
+from PySide6.QtGui import QBrush, QColor
+from PySide6.QtWidgets import (
+    QComboBox, QFileDialog, QFormLayout, QHBoxLayout, QLabel, QLineEdit, QListWidget,
+    QListWidgetItem, QPushButton, QScrollArea, QToolButton, QVBoxLayout, QWidget,
+)
+
+from dsp.errors import GearbenchError, ModelError, Problem
+from dsp.model import EDGES, GearTrain
+
+from .model_form_fields import (
+    NO_TACH, SECTION_CLASSES, SECTION_COLUMNS, SECTION_TITLES, TACH_COLUMNS, build_elements,
+    build_tach, element_texts, field_label, merge_problems, split_field, tach_texts,
+)
+from .model_form_freq import FrequencyTablePanel, FrequencyTableView
+from .model_form_tables import ElementTable
+
+__all__ = ["ModelForm", "FrequencyTableView", "FrequencyTablePanel"]
+
+SETTLE_MS = 150
+START_HINT = (
+    "<b>Start here.</b> 1. Add a sensor and its channel in the recording. "
+    "2. Give the tach channel, or choose '" + NO_TACH + "' and type the nominal speed in rpm. "
+    "3. List the shafts, input first. "
+    "4. Add the gear meshes (driver shaft and teeth, driven shaft and teeth). "
+    "Planetary stages and bearings are optional."
+)
+_MARK_STYLE = {
+    "error": "background: #ffcdcd; border: 1px solid #b00000;",
+    "warning": "background: #ffeeb9; border: 1px solid #a06000;",
+}
+
+
+class _Section(QWidget):
+    """A titled block whose body folds away when its title button is clicked."""
+
+    def __init__(self, title: str, body: QWidget, parent=None):
+        super().__init__(parent)
+        self.title = title
+        self.button = QToolButton(self)
+        self.button.setToolButtonStyle(Qt.ToolButtonStyle.ToolButtonTextBesideIcon)
+        self.button.setCheckable(True)
+        self.button.setChecked(True)
+        self.button.setArrowType(Qt.ArrowType.DownArrow)
+        self.button.setStyleSheet("QToolButton { border: none; font-weight: bold; }")
+        self.button.setText(title)
+        self.body = body
+        self.button.toggled.connect(self.set_open)
+        layout = QVBoxLayout(self)
+        layout.setContentsMargins(0, 2, 0, 2)
+        layout.addWidget(self.button)
+        layout.addWidget(body)
+
+    def set_open(self, is_open: bool) -> None:
+        self.button.setChecked(is_open)
+        self.button.setArrowType(Qt.ArrowType.DownArrow if is_open else Qt.ArrowType.RightArrow)
+        self.body.setVisible(is_open)
+
+    def set_note(self, note: str) -> None:
+        self.button.setText(f"{self.title}  {note}".rstrip())
+
+
+class ModelForm(QWidget):
+    """Side form for the gear-train model.
+
+    Signals
+    -------
+    model_changed(GearTrain)
+        A valid model after an edit settled (or after :meth:`load_file`).
+        :meth:`set_model` does not emit it: the caller already has the model.
+    problems_changed(list[Problem])
+        Every problem (errors and warnings) of the current draft.
+    sensor_selected(int)
+        The analyst chose which sensor to inspect (index into ``model.sensors``).
+    file_loaded(str)
+        A model file was loaded (path).
+    """
+
+    model_changed = Signal(object)
+    problems_changed = Signal(list)
+    sensor_selected = Signal(int)
+    file_loaded = Signal(str)
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self._valid: GearTrain | None = None
+        self._was_valid = False
+        self._n_channels: int | None = None
+        self._problems: list[Problem] = []
+        self._quiet = False          # True while widgets are filled by code
+        self._pristine = True        # empty start: no marks until the first edit
+        self.path: Path | None = None
+        self._timer = QTimer(self)
+        self._timer.setSingleShot(True)
+        self._timer.setInterval(SETTLE_MS)
+        self._timer.timeout.connect(self.settle_now)
+        self._build()
+        self.set_model(None)
+
+    # ---- building ------------------------------------------------------------------
+    def _build(self) -> None:
+        self.load_button = QPushButton("Load model…")
+        self.save_button = QPushButton("Save model…")
+        self.load_button.clicked.connect(self._ask_load)
+        self.save_button.clicked.connect(self._ask_save)
+        top = QHBoxLayout()
+        top.addWidget(self.load_button)
+        top.addWidget(self.save_button)
+        top.addStretch(1)
+        self.status_label = QLabel("")
+        self.status_label.setWordWrap(True)
+        self.status_label.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        self.hint_label = QLabel(START_HINT)
+        self.hint_label.setWordWrap(True)
+        self.hint_label.setStyleSheet("QLabel { background: #eef4ff; padding: 6px; }")
+
+        self.name_edit = QLineEdit()
+        self.name_edit.setPlaceholderText("machine or gearbox name, free text")
+        self.name_edit.textEdited.connect(self._edited)
+
+        self.tables: dict[str, ElementTable] = {}
+        for section in SECTION_CLASSES:
+            table = ElementTable(section, self.shaft_names, self)
+            table.edited.connect(self._edited)
+            self.tables[section] = table
+        self.tables["shafts"].cell_renamed.connect(self._shaft_renamed)
+        self.tables["shafts"].edited.connect(self._refresh_shaft_choices)
+        self.tables["sensors"].edited.connect(self._refresh_sensor_choice)
+
+        self.sensor_combo = QComboBox()
+        self.sensor_combo.setToolTip("The sensor whose signal the views show.")
+        self.sensor_combo.currentIndexChanged.connect(self._sensor_chosen)
+        sensors_body = QWidget()
+        sb = QVBoxLayout(sensors_body)
+        sb.setContentsMargins(0, 0, 0, 0)
+        sb.addWidget(self.tables["sensors"])
+        row = QHBoxLayout()
+        row.addWidget(QLabel("Inspect this sensor:"))
+        row.addWidget(self.sensor_combo, 1)
+        sb.addLayout(row)
+
+        tach_body = QWidget()
+        form = QFormLayout(tach_body)
+        form.setContentsMargins(0, 0, 0, 0)
+        self.tach_widgets: dict[str, QWidget] = {}
+        for col in TACH_COLUMNS:
+            if col.key == "channel":
+                w = QComboBox()
+                w.setEditable(True)
+                w.currentTextChanged.connect(self._edited)
+            elif col.key == "shaft":
+                w = QComboBox()
+                w.currentTextChanged.connect(self._edited)
+            elif col.key == "edge":
+                w = QComboBox()
+                w.addItems(EDGES)
+                w.currentTextChanged.connect(self._edited)
+            else:
+                w = QLineEdit()
+                w.textEdited.connect(self._edited)
+                if col.key == "nominal_rpm":
+                    w.setPlaceholderText("needed when there is no tach")
+            w.setObjectName(f"tach_{col.key}")
+            w.setToolTip(col.tip)
+            self.tach_widgets[col.key] = w
+            form.addRow(col.header, w)
+
+        bodies = {"name": self.name_edit, "sensors": sensors_body, "tach": tach_body}
+        bodies.update({k: t for k, t in self.tables.items() if k != "sensors"})
+        self.sections: dict[str, _Section] = {}
+        inner = QWidget()
+        col_layout = QVBoxLayout(inner)
+        col_layout.setContentsMargins(4, 4, 4, 4)
+        for key in ("name", "sensors", "tach", "shafts", "meshes", "planetary", "bearings"):
+            self.sections[key] = _Section(SECTION_TITLES[key], bodies[key])
+            col_layout.addWidget(self.sections[key])
+        col_layout.addStretch(1)
+        scroll = QScrollArea()
+        scroll.setWidgetResizable(True)
+        scroll.setWidget(inner)
+
+        self.problem_list = QListWidget()
+        self.problem_list.setObjectName("model_problems")
+        self.problem_list.setMaximumHeight(140)
+        self.problem_list.setWordWrap(True)
+        self.problem_list.itemActivated.connect(self._go_to_problem)
+        self.problem_list.itemClicked.connect(self._go_to_problem)
+        self.problem_title = QLabel("<b>What to fix</b>")
+
+        layout = QVBoxLayout(self)
+        layout.setContentsMargins(2, 2, 2, 2)
+        layout.addLayout(top)
+        layout.addWidget(self.status_label)
+        layout.addWidget(self.hint_label)
+        layout.addWidget(scroll, 1)
+        layout.addWidget(self.problem_title)
+        layout.addWidget(self.problem_list)
+
+    # ---- public API ----------------------------------------------------------------
+    def set_model(self, train: GearTrain | None, *, n_channels: int | None = None) -> None:
+        """Show ``train`` in the form (``None``: empty form with a hint on what to enter first).
+
+        The model is checked at once and :attr:`problems_changed` is emitted;
+        :meth:`model` returns ``train`` when it has no errors, else ``None``.
+        """
+        self._timer.stop()
+        if n_channels is not None:
+            self._n_channels = int(n_channels)
+        self._pristine = train is None
+        shown = train if train is not None else GearTrain()
+        self._quiet = True
+        try:
+            self.name_edit.setText(shown.name)
+            for section, table in self.tables.items():
+                table.set_rows([element_texts(section, e) for e in getattr(shown, section)])
+            self._refresh_shaft_choices()
+            self._refresh_channel_choices()
+            texts = tach_texts(shown.tach)
+            for key, w in self.tach_widgets.items():
+                _set_widget_text(w, texts[key])
+            self._refresh_sensor_choice()
+        finally:
+            self._quiet = False
+        self._valid = None
+        self._was_valid = False
+        self._evaluate(emit_model=False)
+        if train is not None and not _has_errors(self._problems):
+            self._valid = train
+            self._was_valid = True
+
+    def model(self) -> GearTrain | None:
+        """The last valid model (no errors), or ``None`` when there has been none."""
+        return self._valid
+
+    def draft(self) -> GearTrain:
+        """The model as typed now, even if invalid (text that is not a number stays text)."""
+        return self._build_draft()[0]
+
+    def problems(self) -> list[Problem]:
+        """Problems of the draft at the last check."""
+        return list(self._problems)
+
+    def set_n_channels(self, n: int | None) -> None:
+        """Number of channels in the recording (checks sensor and tach channels against it)."""
+        self._n_channels = None if n is None else int(n)
+        self._quiet = True
+        try:
+            self._refresh_channel_choices()
+        finally:
+            self._quiet = False
+        if not self._pristine:
+            self.settle_now()
+
+    def selected_sensor(self) -> int:
+        """Index of the sensor chosen under "Inspect this sensor" (-1 when none)."""
+        return self.sensor_combo.currentIndex()
+
+    def set_selected_sensor(self, index: int) -> None:
+        self.sensor_combo.setCurrentIndex(index)
+
+    def load_file(self, path) -> bool:
+        """Load a TOML model file into the form; problems are shown in the form, not raised.
+
+        Returns True when the file was loaded.
+        """
+        from dsp.model import load_model
+
+        path = Path(path)
+        try:
+            train = load_model(path)
+        except ModelError as e:
+            lines = "<br>".join(_escape(str(p)) for p in e.problems) or _escape(str(e))
+            self._status(f"Could not load {_escape(path.name)}; fix these in the file and load "
+                         f"it again:<br>{lines}", error=True)
+            return False
+        except (GearbenchError, OSError, ValueError) as e:
+            self._status(f"Could not load {_escape(path.name)}: {_escape(str(e))}", error=True)
+            return False
+        self.set_model(train)
+        self.path = path
+        self._status(f"Loaded {_escape(str(path))}.")
+        self.file_loaded.emit(str(path))
+        if self._valid is not None:
+            self.model_changed.emit(self._valid)
+        return True
+
+    def save_file(self, path) -> bool:
+        """Save the typed model as TOML; refused (message in the form) while it has errors."""
+        from dsp.model import save_model
+
+        path = Path(path)
+        self.settle_now()
+        n_errors = sum(p.severity == "error" for p in self._problems)
+        if n_errors:
+            self._status(f"Not saved: fix the {n_errors} problem{'s' if n_errors > 1 else ''} "
+                         "listed under the form first.", error=True)
+            return False
+        try:
+            save_model(self.draft(), path)
+        except (GearbenchError, OSError, ValueError) as e:
+            self._status(f"Could not save {_escape(str(path))}: {_escape(str(e))}", error=True)
+            return False
+        self.path = path
+        self._status(f"Saved {_escape(str(path))}.")
+        return True
+
+    def settle_now(self) -> None:
+        """Check the draft now instead of waiting for the edit to settle."""
+        self._timer.stop()
+        self._pristine = False
+        self._evaluate(emit_model=True)
+
+    # ---- editing -------------------------------------------------------------------
+    def shaft_names(self) -> list[str]:
+        """Shaft names as typed in the Shafts table (for the shaft combo boxes)."""
+        return [r[0] for r in self.tables["shafts"].rows() if r and r[0]]
+
+    def _edited(self, *_args) -> None:
+        if self._quiet:
+            return
+        self._timer.start()
+
+    def _shaft_renamed(self, row: int, _col: int, old: str, new: str) -> None:
+        if not old or old in self.shaft_names():
+            return  # a new name, or another shaft still carries the old one
+        self._quiet = True
+        try:
+            for key in ("meshes", "planetary", "bearings"):
+                self.tables[key].replace_shaft(old, new)
+            tach_shaft = self.tach_widgets["shaft"]
+            if tach_shaft.currentText() == old:
+                self._refresh_shaft_choices()
+                _set_widget_text(tach_shaft, new)
+        finally:
+            self._quiet = False
+
+    def _refresh_shaft_choices(self) -> None:
+        box = self.tach_widgets["shaft"]
+        was_quiet, self._quiet = self._quiet, True
+        current = box.currentText()
+        names = [""] + self.shaft_names()
+        if current not in names:
+            names.append(current)
+        box.blockSignals(True)
+        box.clear()
+        box.addItems(names)
+        box.setCurrentIndex(names.index(current))
+        box.blockSignals(False)
+        self._quiet = was_quiet
+
+    def _refresh_channel_choices(self) -> None:
+        box = self.tach_widgets["channel"]
+        current = box.currentText()
+        n = self._n_channels if self._n_channels is not None else 4
+        box.blockSignals(True)
+        box.clear()
+        box.addItems([NO_TACH] + [str(i) for i in range(n)])
+        box.setCurrentText(current or NO_TACH)
+        box.blockSignals(False)
+
+    def _refresh_sensor_choice(self) -> None:
+        box = self.sensor_combo
+        before = box.currentIndex()
+        box.blockSignals(True)
+        box.clear()
+        for i, row in enumerate(self.tables["sensors"].rows()):
+            box.addItem(f"{row[0] or f'sensor {i + 1}'} (channel {row[1]})")
+        after = min(max(before, 0), box.count() - 1)
+        box.setCurrentIndex(after)
+        box.blockSignals(False)
+        if after != before and after >= 0 and not self._quiet:
+            self.sensor_selected.emit(after)
+
+    def _sensor_chosen(self, index: int) -> None:
+        if index >= 0:
+            self.sensor_selected.emit(index)
+
+    # ---- checking ------------------------------------------------------------------
+    def _build_draft(self) -> tuple[GearTrain, list[Problem]]:
+        typing: list[Problem] = []
+        parts = {}
+        for section, table in self.tables.items():
+            parts[section], found = build_elements(section, table.rows())
+            typing += found
+        tach, found = build_tach({k: _widget_text(w) for k, w in self.tach_widgets.items()})
+        typing += found
+        return GearTrain(name=self.name_edit.text(), tach=tach, **parts), typing
+
+    def _evaluate(self, *, emit_model: bool) -> None:
+        draft, typing = self._build_draft()
+        problems = merge_problems(typing, self._check(draft)) if not self._pristine else []
+        self._problems = problems
+        self._show_problems(problems)
+        self.hint_label.setVisible(not (draft.sensors and draft.shafts and draft.meshes))
+        self.problems_changed.emit(list(problems))
+        if self._pristine or _has_errors(problems):
+            self._was_valid = False
+            return
+        changed = draft != self._valid or not self._was_valid
+        self._valid, self._was_valid = draft, True
+        if emit_model and changed:
+            self.model_changed.emit(draft)
+
+    def _check(self, draft: GearTrain) -> list[Problem]:
+        from dsp.model import validate
+
+        return list(validate(draft, n_channels=self._n_channels))
+
+    def _show_problems(self, problems: list[Problem]) -> None:
+        table_marks: dict[str, dict] = {k: {} for k in self.tables}
+        widget_marks: dict[str, list[tuple[str, str]]] = {}
+        section_counts: dict[str, int] = {}
+        self.problem_list.clear()
+        for p in problems:
+            parts = split_field(p.field)
+            text = f"{'Error' if p.severity == 'error' else 'Warning'}: {field_label(p.field)}: {p.message}"
+            item = QListWidgetItem(text)
+            item.setData(Qt.ItemDataRole.UserRole, p.field)
+            item.setForeground(QBrush(QColor(170, 0, 0) if p.severity == "error" else QColor(150, 90, 0)))
+            self.problem_list.addItem(item)
+            if parts is None:
+                continue
+            section, index, key = parts
+            section_counts[section] = section_counts.get(section, 0) + 1
+            mark = (p.severity, p.message)
+            if section in self.tables and index is not None:
+                table = self.tables[section]
+                col = next((j for j, c in enumerate(table.columns) if c.key == key), None)
+                table_marks[section].setdefault((index, col), []).append(mark)
+            elif section == "tach" and key in self.tach_widgets:
+                widget_marks.setdefault(f"tach.{key}", []).append(mark)
+            elif section == "name" and key is None:
+                widget_marks.setdefault("name", []).append(mark)
+        for section, table in self.tables.items():
+            table.set_marks(table_marks[section])
+        for key, w in [("name", self.name_edit)] + [(f"tach.{k}", w) for k, w in self.tach_widgets.items()]:
+            found = widget_marks.get(key, [])
+            _mark_widget(w, found)
+        for key, sec in self.sections.items():
+            n = section_counts.get(key, 0)
+            sec.set_note(f"({n} to fix)" if n else "")
+        self.problem_title.setVisible(bool(problems))
+        self.problem_list.setVisible(bool(problems))
+
+    def widget_for(self, field: str) -> QWidget | None:
+        """The widget that edits ``field`` (table, tach widget or name box), or None."""
+        parts = split_field(field)
+        if parts is None:
+            return None
+        section, _index, key = parts
+        if section in self.tables:
+            return self.tables[section].table
+        if section == "tach":
+            return self.tach_widgets.get(key)
+        return self.name_edit if section == "name" else None
+
+    def is_marked(self, field: str) -> bool:
+        """True when ``field`` is shown as having a problem."""
+        parts = split_field(field)
+        if parts is None:
+            return False
+        section, index, key = parts
+        if section in self.tables and index is not None and key is not None:
+            t = self.tables[section]
+            return t.is_marked(index, t.column_index(key))
+        w = self.widget_for(field)
+        return bool(w is not None and w.property("problem"))
+
+    def _go_to_problem(self, item: QListWidgetItem) -> None:
+        field = item.data(Qt.ItemDataRole.UserRole)
+        parts = split_field(field)
+        if parts is None:
+            return
+        section, index, key = parts
+        if section in self.sections:
+            self.sections[section].set_open(True)
+        if section in self.tables and index is not None:
+            t = self.tables[section]
+            col = t.column_index(key) if key else 0
+            t.table.setCurrentCell(index, col)
+            t.table.setFocus()
+        else:
+            w = self.widget_for(field)
+            if w is not None:
+                w.setFocus()
+
+    # ---- files ---------------------------------------------------------------------
+    def _ask_load(self) -> None:
+        start = str(self.path.parent) if self.path else ""
+        path, _ = QFileDialog.getOpenFileName(self, "Load gear-train model", start,
+                                              "Model files (*.toml);;All files (*)")
+        if path:
+            self.load_file(path)
+
+    def _ask_save(self) -> None:
+        start = str(self.path) if self.path else ""
+        path, _ = QFileDialog.getSaveFileName(self, "Save gear-train model", start,
+                                              "Model files (*.toml);;All files (*)")
+        if path:
+            p = Path(path)
+            self.save_file(p if p.suffix else p.with_suffix(".toml"))
+
+    def _status(self, html: str, *, error: bool = False) -> None:
+        self.status_label.setStyleSheet("QLabel { color: #aa0000; }" if error else "")
+        self.status_label.setText(html)
+
+
+def _has_errors(problems: list[Problem]) -> bool:
+    return any(p.severity == "error" for p in problems)
+
+
+def _escape(text: str) -> str:
+    return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+
+
+def _widget_text(w: QWidget) -> str:
+    return w.currentText() if isinstance(w, QComboBox) else w.text()
+
+
+def _set_widget_text(w: QWidget, text: str) -> None:
+    if isinstance(w, QComboBox):
+        i = w.findText(text)
+        if i < 0 and not w.isEditable():
+            w.addItem(text)
+            i = w.count() - 1
+        if i >= 0:
+            w.setCurrentIndex(i)
+        else:
+            w.setCurrentText(text)
+    else:
+        w.setText(text)
+
+
+def _mark_widget(w: QWidget, found: list[tuple[str, str]]) -> None:
+    name = type(w).__name__
+    if not found:
+        w.setProperty("problem", False)
+        w.setStyleSheet("")
+        base_tip = w.property("base_tip")
+        if base_tip is not None:
+            w.setToolTip(base_tip)
+        return
+    if w.property("base_tip") is None:
+        w.setProperty("base_tip", w.toolTip())
+    severity = "error" if any(s == "error" for s, _ in found) else "warning"
+    w.setProperty("problem", True)
+    w.setStyleSheet(f"{name} {{ {_MARK_STYLE[severity]} }}")
+    w.setToolTip("\n".join(m for _, m in found))
