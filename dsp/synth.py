@@ -160,66 +160,32 @@ class Simulation:
 
 
 # ---------------------------------------------------------------------------
-# Kinematics (dsp.kinematics when present; a local equivalent otherwise)
+# Kinematics (from dsp.kinematics)
 # ---------------------------------------------------------------------------
 
 
-def _local_shaft_orders(train, reference_shaft: str) -> dict[str, float]:
-    """Speed of each shaft relative to ``reference_shaft`` (positive magnitudes).
-
-    Parallel pair: ``f_driven = f_driver Z_driver / Z_driven``; planetary stage with
-    fixed ring: ``f_carrier = f_sun Z_sun / (Z_sun + Z_ring)`` (Willis relation).
-    """
-    links: dict[str, list[tuple[str, float]]] = {s: [] for s in train.shaft_names()}
-    for m in train.meshes:
-        r = m.driver_teeth / m.driven_teeth
-        links.setdefault(m.driver, []).append((m.driven, r))
-        links.setdefault(m.driven, []).append((m.driver, 1.0 / r))
-    for p in train.planetary:
-        r = p.sun_teeth / (p.sun_teeth + p.ring_teeth)
-        links.setdefault(p.sun_shaft, []).append((p.carrier_shaft, r))
-        links.setdefault(p.carrier_shaft, []).append((p.sun_shaft, 1.0 / r))
-    orders = {reference_shaft: 1.0}
-    todo = [reference_shaft]
-    while todo:
-        s = todo.pop()
-        for other, r in links.get(s, ()):
-            if other not in orders:
-                orders[other] = orders[s] * r
-                todo.append(other)
-    missing = [s for s in links if s not in orders]
-    if missing:
-        raise ModelError([Problem("shafts", f"shaft {missing[0]!r} is not connected to {reference_shaft!r} "
-                                            "by any mesh; connect it or remove it")])
-    return orders
-
-
 def _shaft_orders(train, reference_shaft: str) -> dict[str, float]:
-    try:
-        from .kinematics import shaft_orders
-    except ImportError:
-        return _local_shaft_orders(train, reference_shaft)
+    from .kinematics import shaft_orders
+
     return {k: abs(float(v)) for k, v in shaft_orders(train, reference_shaft).items()}
 
 
 def bearing_orders(bearing) -> dict[str, float]:
     """Defect frequencies of a bearing as orders of its shaft (outer ring fixed).
 
-    Returns ``{"bpfo", "bpfi", "bsf", "ftf"}``.
+    Returns ``{"bpfo", "bpfi", "bsf", "ftf"}`` from
+    :func:`dsp.kinematics.bearing_frequencies` at a shaft rate of 1 Hz.
 
     References
     ----------
     .. [1] R. B. Randall and J. Antoni, "Rolling element bearing diagnostics - A
        tutorial", Mechanical Systems and Signal Processing 25 (2011) 485-520.
     """
-    n = bearing.rolling_elements
-    ratio = bearing.element_diameter_mm / bearing.pitch_diameter_mm * math.cos(math.radians(bearing.contact_angle_deg))
-    return {
-        "bpfo": n / 2 * (1 - ratio),
-        "bpfi": n / 2 * (1 + ratio),
-        "ftf": 0.5 * (1 - ratio),
-        "bsf": bearing.pitch_diameter_mm / (2 * bearing.element_diameter_mm) * (1 - ratio**2),
-    }
+    from .kinematics import bearing_frequencies
+
+    f = bearing_frequencies(1.0, bearing.rolling_elements, bearing.element_diameter_mm,
+                            bearing.pitch_diameter_mm, bearing.contact_angle_deg)
+    return {"bpfo": f.bpfo_hz, "bpfi": f.bpfi_hz, "bsf": f.bsf_hz, "ftf": f.ftf_hz}
 
 
 # ---------------------------------------------------------------------------
@@ -536,11 +502,9 @@ def simulate(train, *, rpm: float | None = None, duration_s: float = 10.0, fs: f
     def times_at(theta_events):
         return np.interp(theta_events, theta, t_of)
 
-    frac = theta - np.floor(theta)          # reference angle modulo 1 (for shaft phases)
-
     def shaft_phase(order: float) -> np.ndarray:
         """2 pi x shaft angle, reduced to keep float precision."""
-        return (2 * np.pi) * _frac_mul(theta, frac, order)
+        return (2 * np.pi) * _frac_mul(theta, order)
 
     # --- per-stage modulation, built up by the faults --------------------
     stages = _stages(train)
@@ -570,7 +534,7 @@ def simulate(train, *, rpm: float | None = None, duration_s: float = 10.0, fs: f
             add_mod(i, _HEALTHY_AM * np.cos(ph + psi_a), _HEALTHY_PM_RAD * np.cos(ph + psi_p))
         if kind == "mesh":  # manufacturing tooth-to-tooth errors of both gears
             for sh, z in ((s.driver, s.driver_teeth), (s.driven, s.driven_teeth)):
-                prof_a, prof_p = _tooth_profile(_frac_mul(theta, frac, orders[sh]), int(z), rng)
+                prof_a, prof_p = _tooth_profile(_frac_mul(theta, orders[sh]), int(z), rng)
                 add_mod(i, _HEALTHY_TOOTH_AM * prof_a, _HEALTHY_TOOTH_PM_RAD * prof_p)
 
     for f in faults:
@@ -584,7 +548,7 @@ def simulate(train, *, rpm: float | None = None, duration_s: float = 10.0, fs: f
                 dip, pmr, sigma, impact = _TOOTH[f.severity]
                 centre = (f.tooth + 0.5) / g.teeth
                 # angle counted in contact periods: psi * contacts
-                x = _wrap((_frac_mul(theta, frac, g.rel_order) - centre) * g.contacts)
+                x = _wrap((_frac_mul(theta, g.rel_order) - centre) * g.contacts)
                 d_pitch = x * g.teeth / g.contacts
                 w = np.exp(-0.5 * (d_pitch / sigma) ** 2)
                 add_mod(g.stage, -dip * w, pmr * w)
@@ -601,7 +565,7 @@ def simulate(train, *, rpm: float | None = None, duration_s: float = 10.0, fs: f
                 gain, a_std, p_std = _WEAR[f.severity]
                 harmonic_gain[g.stage][1:] *= gain
                 # smooth random profile over the teeth, periodic in one gear revolution
-                prof_a, prof_p = _tooth_profile(_frac_mul(theta, frac, g.rel_order), g.teeth, rng)
+                prof_a, prof_p = _tooth_profile(_frac_mul(theta, g.rel_order), g.teeth, rng)
                 add_mod(g.stage, a_std * prof_a, p_std * prof_p)
         elif f.kind == "eccentricity":
             if f.on not in orders:
@@ -655,11 +619,11 @@ def simulate(train, *, rpm: float | None = None, duration_s: float = 10.0, fs: f
         coef = amp * gains * harmonic_gain[i][:n_harmonics] * np.exp(1j * beta[i, :n_harmonics])
         a_mod = 1.0 + am[i] if am[i].size else None
         if kind == "mesh":
-            mesh_rev = _frac_mul(theta, frac, orders[s.driver] * s.driver_teeth)
+            mesh_rev = _frac_mul(theta, orders[s.driver] * s.driver_teeth)
             acc = acc + _harmonic_sum(mesh_rev, pm[i], coef, a_mod)
         else:
             o_c = orders[s.carrier_shaft]
-            mesh_rev = _frac_mul(theta, frac, o_c * s.ring_teeth)
+            mesh_rev = _frac_mul(theta, o_c * s.ring_teeth)
             carrier = theta * o_c
             total = np.zeros(n)
             for p in range(s.planets):
@@ -724,13 +688,10 @@ def simulate(train, *, rpm: float | None = None, duration_s: float = 10.0, fs: f
                       fault_events_s=tuple(fault_events), parameters=params)
 
 
-def _frac_mul(theta: np.ndarray, frac: np.ndarray, order: float) -> np.ndarray:
-    """``order * theta`` reduced modulo 1 without losing precision on long records.
-
-    ``theta = k + frac`` with integer ``k``; ``order * k`` is reduced exactly with
-    the fractional part of ``order`` handled in float64.
-    """
-    return order * theta - np.floor(order * theta)
+def _frac_mul(theta: np.ndarray, order: float) -> np.ndarray:
+    """``order * theta`` modulo 1 (rev), so that later float32 or trig keeps precision."""
+    x = order * theta
+    return x - np.floor(x)
 
 
 def _harmonic_sum(mesh_rev: np.ndarray, pm: np.ndarray, coef: np.ndarray, a_mod) -> np.ndarray:
