@@ -601,47 +601,48 @@ def _check_graph(c: _Checker, shaft_names: list[str], edges: list, touched: set[
                  incomplete: bool, reference: str | None) -> None:
     """Report unconnected shafts and loops whose speed ratios disagree.
 
-    ``incomplete`` (some mesh or stage has bad fields) suppresses the
-    reachability report, which would only repeat those problems.
+    Connections are added in file order (meshes, then planetary stages); the
+    first one that joins two shafts already linked "closes the loop" and is the
+    one named.  ``incomplete`` (some mesh or stage has bad fields) suppresses
+    the reachability report, which would only repeat those problems.
     """
     if not shaft_names:
         c.add("shafts", "the model has no shafts; add at least one [[shafts]] block")
         return
-    adjacency: dict[str, list[tuple[str, float, int, str, str]]] = {n: [] for n in shaft_names}
-    for a, b, ratio, direction, label, path in edges:
-        adjacency[a].append((b, ratio, direction, label, path))
-        adjacency[b].append((a, 1.0 / ratio, direction, label, path))
     index = {n: i for i, n in enumerate(shaft_names)}
     if len(shaft_names) > 1:
         for n in shaft_names:
             if n not in touched:
                 c.add(f"shafts[{index[n]}].name",
                       f"shaft {n!r} is connected to nothing; add a mesh or planetary stage that uses it, or remove it")
-    start = reference if reference is not None else shaft_names[0]
-    rate: dict[str, float] = {start: 1.0}
-    sense: dict[str, int] = {start: 1}
-    used: set[str] = set()
-    queue = [start]
-    while queue:
-        a = queue.pop(0)
-        for b, ratio, direction, label, path in adjacency[a]:
-            key = (label, path)
-            if key in used:
-                continue
-            used.add(key)
-            r, s = rate[a] * ratio, sense[a] * direction
-            if b not in rate:
-                rate[b], sense[b] = r, s
-                queue.append(b)
-            elif not math.isclose(rate[b], r, rel_tol=1e-9):
-                c.add(path, f"the {label} closes a loop that gives shaft {b!r} two different speeds "
-                            f"({rate[b]:.6g} and {r:.6g} times shaft {start!r}); check the tooth counts or "
-                            "remove the extra connection")
-            elif sense[b] != s:
+    # group[n] = name of n's group; rate/sense of n relative to its group's first shaft
+    group = {n: n for n in shaft_names}
+    rate = {n: 1.0 for n in shaft_names}
+    sense = {n: 1 for n in shaft_names}
+    members = {n: [n] for n in shaft_names}
+    for a, b, ratio, direction, label, path in edges:
+        r_b, s_b = rate[a] * ratio, sense[a] * direction   # what the connection implies for b
+        if group[a] == group[b]:
+            if not math.isclose(rate[b], r_b, rel_tol=1e-9):
+                c.add(path, f"the {label} closes a loop that gives shaft {b!r} two different speeds: "
+                            f"{ratio:.6g} times shaft {a!r} through this connection but {rate[b] / rate[a]:.6g} "
+                            "through the others; check the tooth counts or remove the extra connection")
+            elif sense[b] != s_b:
                 c.add(path, f"the {label} closes a loop that makes shaft {b!r} turn both ways at once "
                             "(such a train would lock); check the connections")
+            continue
+        # merge b's group into a's, rescaling it so that b gets r_b, s_b
+        k, flip, old = r_b / rate[b], s_b * sense[b], group[b]
+        for n in members.pop(old):
+            group[n] = group[a]
+            rate[n] *= k
+            sense[n] *= flip
+            members[group[a]].append(n)
+    if incomplete:
+        return
+    start = reference if reference is not None else shaft_names[0]
     for n in shaft_names:
-        if n not in rate and n in touched and not incomplete:
+        if group[n] != group[start] and n in touched:
             c.add(f"shafts[{index[n]}].name",
                   f"shaft {n!r} is not connected to shaft {start!r}, so its speed is unknown; "
                   "add the mesh or planetary stage that links them")
