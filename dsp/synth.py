@@ -628,7 +628,7 @@ def simulate(train, *, rpm: float | None = None, duration_s: float = 10.0, fs: f
             total = np.zeros(n)
             for p in range(s.planets):
                 pos = p / s.planets
-                win = np.exp(-0.5 * (_wrap(carrier - pos) / (0.5 / s.planets)) ** 2)
+                win = np.exp(-0.5 * (_wrap(carrier - pos) / (0.25 / s.planets)) ** 2)
                 shift = (s.ring_teeth * pos) % 1.0
                 a_p = win if a_mod is None else win * a_mod
                 total += _harmonic_sum(mesh_rev - shift, pm[i], coef, a_p)
