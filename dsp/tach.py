@@ -202,9 +202,9 @@ def _insert_missing(t: np.ndarray, half: int) -> tuple[np.ndarray, np.ndarray, i
     """Insert the pulses missing from intervals close to an integer multiple m >= 2 of the local median.
 
     The m-1 inserted pulses are evenly spaced in shaft angle: their times come from a
-    monotone cubic (PCHIP) of time against pulse count through the pulses found, so a
-    speed that changes across the gap is followed (evenly spaced in time when the
-    speed is constant).
+    cubic of time against pulse count through the two pulses found on each side of the
+    gap, so a speed that changes across the gap is followed (evenly spaced in time
+    when the speed is constant).
     """
     d = np.diff(t)
     med = _local_median(d, half)
@@ -214,8 +214,6 @@ def _insert_missing(t: np.ndarray, half: int) -> tuple[np.ndarray, np.ndarray, i
     n_gaps_left = int(np.count_nonzero((ratio > 1.5) & ~gap))
     if not gap.any():
         return t, np.zeros(t.size, bool), n_gaps_left
-    from scipy.interpolate import PchipInterpolator
-
     steps = np.where(gap, m, 1).astype(np.int64)
     count = np.concatenate(([0], np.cumsum(steps)))          # pulse count of each pulse found
     out = np.empty(int(count[-1]) + 1)
@@ -223,7 +221,30 @@ def _insert_missing(t: np.ndarray, half: int) -> tuple[np.ndarray, np.ndarray, i
     out[count] = t
     repaired[count] = False
     missing = np.flatnonzero(repaired)
-    out[missing] = PchipInterpolator(count.astype(np.float64), t)(missing.astype(np.float64))
+    # Each missing pulse: cubic (4-point Lagrange) of time against count through the two
+    # pulses found on each side of its gap (fewer at the ends of the train).
+    k = np.searchsorted(count, missing) - 1                  # gap between found pulses k and k+1
+    npts = min(4, t.size)
+    base = np.clip(k - 1, 0, t.size - npts)
+    idx = base[:, None] + np.arange(npts)[None, :]
+    xs = count[idx].astype(np.float64)
+    ys = t[idx]
+    q = missing.astype(np.float64)[:, None]
+    est = np.zeros(missing.size)
+    for j in range(npts):
+        w = np.ones(missing.size)
+        for i in range(npts):
+            if i != j:
+                w *= (q[:, 0] - xs[:, i]) / (xs[:, j] - xs[:, i])
+        est += w * ys[:, j]
+    # Keep the result inside its gap and in order (guards against wild extrapolation).
+    lo_t, hi_t = t[k], t[k + 1]
+    frac = (missing - count[k]) / (count[k + 1] - count[k])
+    linear = lo_t + frac * (hi_t - lo_t)
+    ok = (est > lo_t) & (est < hi_t)
+    out[missing] = np.where(ok, est, linear)
+    if not np.all(np.diff(out) > 0):  # pathological: fall back on even spacing in time
+        out[missing] = linear
     return out, repaired, n_gaps_left
 
 
@@ -289,8 +310,9 @@ def detect_pulses(x, fs, *, pulses_per_rev: int = 1, edge: str = "rising", thres
     local median interval means an extra pulse; of its two pulses the one whose
     removal leaves an interval closest to the median is dropped.  An interval within
     0.25 of an integer multiple m >= 2 of the local median receives m-1 pulses evenly
-    spaced in angle (times from a monotone cubic of time against pulse count, which is
-    even spacing in time at constant speed and follows a speed change across the gap).
+    spaced in angle (times from a cubic of time against pulse count through two found
+    pulses each side: even spacing in time at constant speed, and a speed change
+    across the gap is followed).
     The local median slides along the train, so a wandering speed is followed.
 
     References
