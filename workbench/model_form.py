@@ -22,19 +22,20 @@ from pathlib import Path
 from PySide6.QtCore import Qt, QTimer, Signal
 from PySide6.QtGui import QBrush, QColor
 from PySide6.QtWidgets import (
-    QComboBox, QFileDialog, QFormLayout, QHBoxLayout, QLabel, QLineEdit, QListWidget,
-    QListWidgetItem, QPushButton, QScrollArea, QToolButton, QVBoxLayout, QWidget,
+    QComboBox, QFileDialog, QHBoxLayout, QLabel, QLineEdit, QListWidget, QListWidgetItem,
+    QPushButton, QScrollArea, QVBoxLayout, QWidget,
 )
 
 from dsp.errors import GearbenchError, ModelError, Problem
-from dsp.model import EDGES, GearTrain
+from dsp.model import GearTrain
 
 from .model_form_fields import (
-    NO_TACH, SECTION_CLASSES, SECTION_COLUMNS, SECTION_TITLES, TACH_COLUMNS, build_elements,
-    build_tach, element_texts, field_label, merge_problems, split_field, tach_texts,
+    NO_TACH, SECTION_CLASSES, SECTION_TITLES, build_elements, build_tach, element_texts,
+    field_label, merge_problems, split_field, tach_texts,
 )
 from .model_form_freq import FrequencyTablePanel, FrequencyTableView
 from .model_form_tables import ElementTable
+from .model_form_widgets import FoldingSection, TachEditor, mark_widget
 
 __all__ = ["ModelForm", "FrequencyTableView", "FrequencyTablePanel"]
 
@@ -46,41 +47,6 @@ START_HINT = (
     "4. Add the gear meshes (driver shaft and teeth, driven shaft and teeth). "
     "Planetary stages and bearings are optional."
 )
-_MARK_STYLE = {
-    "error": "background: #ffcdcd; border: 1px solid #b00000;",
-    "warning": "background: #ffeeb9; border: 1px solid #a06000;",
-}
-
-
-class _Section(QWidget):
-    """A titled block whose body folds away when its title button is clicked."""
-
-    def __init__(self, title: str, body: QWidget, parent=None):
-        super().__init__(parent)
-        self.title = title
-        self.button = QToolButton(self)
-        self.button.setToolButtonStyle(Qt.ToolButtonStyle.ToolButtonTextBesideIcon)
-        self.button.setCheckable(True)
-        self.button.setChecked(True)
-        self.button.setArrowType(Qt.ArrowType.DownArrow)
-        self.button.setStyleSheet("QToolButton { border: none; font-weight: bold; }")
-        self.button.setText(title)
-        self.body = body
-        self.button.toggled.connect(self.set_open)
-        layout = QVBoxLayout(self)
-        layout.setContentsMargins(0, 2, 0, 2)
-        layout.addWidget(self.button)
-        layout.addWidget(body)
-
-    def set_open(self, is_open: bool) -> None:
-        self.button.setChecked(is_open)
-        self.button.setArrowType(Qt.ArrowType.DownArrow if is_open else Qt.ArrowType.RightArrow)
-        self.body.setVisible(is_open)
-
-    def set_note(self, note: str) -> None:
-        self.button.setText(f"{self.title}  {note}".rstrip())
-
-
 class ModelForm(QWidget):
     """Side form for the gear-train model.
 
@@ -130,6 +96,7 @@ class ModelForm(QWidget):
         top.addStretch(1)
         self.status_label = QLabel("")
         self.status_label.setWordWrap(True)
+        self.status_label.setVisible(False)
         self.status_label.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
         self.hint_label = QLabel(START_HINT)
         self.hint_label.setWordWrap(True)
@@ -160,40 +127,18 @@ class ModelForm(QWidget):
         row.addWidget(self.sensor_combo, 1)
         sb.addLayout(row)
 
-        tach_body = QWidget()
-        form = QFormLayout(tach_body)
-        form.setContentsMargins(0, 0, 0, 0)
-        self.tach_widgets: dict[str, QWidget] = {}
-        for col in TACH_COLUMNS:
-            if col.key == "channel":
-                w = QComboBox()
-                w.setEditable(True)
-                w.currentTextChanged.connect(self._edited)
-            elif col.key == "shaft":
-                w = QComboBox()
-                w.currentTextChanged.connect(self._edited)
-            elif col.key == "edge":
-                w = QComboBox()
-                w.addItems(EDGES)
-                w.currentTextChanged.connect(self._edited)
-            else:
-                w = QLineEdit()
-                w.textEdited.connect(self._edited)
-                if col.key == "nominal_rpm":
-                    w.setPlaceholderText("needed when there is no tach")
-            w.setObjectName(f"tach_{col.key}")
-            w.setToolTip(col.tip)
-            self.tach_widgets[col.key] = w
-            form.addRow(col.header, w)
+        self.tach = TachEditor()
+        self.tach.edited.connect(self._edited)
+        self.tach_widgets = self.tach.widgets
 
-        bodies = {"name": self.name_edit, "sensors": sensors_body, "tach": tach_body}
+        bodies = {"name": self.name_edit, "sensors": sensors_body, "tach": self.tach}
         bodies.update({k: t for k, t in self.tables.items() if k != "sensors"})
-        self.sections: dict[str, _Section] = {}
+        self.sections: dict[str, FoldingSection] = {}
         inner = QWidget()
         col_layout = QVBoxLayout(inner)
         col_layout.setContentsMargins(4, 4, 4, 4)
         for key in ("name", "sensors", "tach", "shafts", "meshes", "planetary", "bearings"):
-            self.sections[key] = _Section(SECTION_TITLES[key], bodies[key])
+            self.sections[key] = FoldingSection(SECTION_TITLES[key], bodies[key])
             col_layout.addWidget(self.sections[key])
         col_layout.addStretch(1)
         scroll = QScrollArea()
@@ -234,14 +179,13 @@ class ModelForm(QWidget):
             self.name_edit.setText(shown.name)
             for section, table in self.tables.items():
                 table.set_rows([element_texts(section, e) for e in getattr(shown, section)])
+            self.tach.set_channel_count(self._n_channels)
+            self.tach.set_texts(tach_texts(shown.tach))
             self._refresh_shaft_choices()
-            self._refresh_channel_choices()
-            texts = tach_texts(shown.tach)
-            for key, w in self.tach_widgets.items():
-                _set_widget_text(w, texts[key])
             self._refresh_sensor_choice()
         finally:
             self._quiet = False
+        self._status("")
         self._valid = None
         self._was_valid = False
         self._evaluate(emit_model=False)
@@ -264,11 +208,7 @@ class ModelForm(QWidget):
     def set_n_channels(self, n: int | None) -> None:
         """Number of channels in the recording (checks sensor and tach channels against it)."""
         self._n_channels = None if n is None else int(n)
-        self._quiet = True
-        try:
-            self._refresh_channel_choices()
-        finally:
-            self._quiet = False
+        self.tach.set_channel_count(self._n_channels)
         if not self._pristine:
             self.settle_now()
 
@@ -341,43 +281,16 @@ class ModelForm(QWidget):
             return
         self._timer.start()
 
-    def _shaft_renamed(self, row: int, _col: int, old: str, new: str) -> None:
+    def _shaft_renamed(self, _row: int, _col: int, old: str, new: str) -> None:
         if not old or old in self.shaft_names():
             return  # a new name, or another shaft still carries the old one
-        self._quiet = True
-        try:
-            for key in ("meshes", "planetary", "bearings"):
-                self.tables[key].replace_shaft(old, new)
-            tach_shaft = self.tach_widgets["shaft"]
-            if tach_shaft.currentText() == old:
-                self._refresh_shaft_choices()
-                _set_widget_text(tach_shaft, new)
-        finally:
-            self._quiet = False
+        for key in ("meshes", "planetary", "bearings"):
+            self.tables[key].replace_shaft(old, new)
+        self._refresh_shaft_choices()
+        self.tach.rename_shaft(old, new)
 
     def _refresh_shaft_choices(self) -> None:
-        box = self.tach_widgets["shaft"]
-        was_quiet, self._quiet = self._quiet, True
-        current = box.currentText()
-        names = [""] + self.shaft_names()
-        if current not in names:
-            names.append(current)
-        box.blockSignals(True)
-        box.clear()
-        box.addItems(names)
-        box.setCurrentIndex(names.index(current))
-        box.blockSignals(False)
-        self._quiet = was_quiet
-
-    def _refresh_channel_choices(self) -> None:
-        box = self.tach_widgets["channel"]
-        current = box.currentText()
-        n = self._n_channels if self._n_channels is not None else 4
-        box.blockSignals(True)
-        box.clear()
-        box.addItems([NO_TACH] + [str(i) for i in range(n)])
-        box.setCurrentText(current or NO_TACH)
-        box.blockSignals(False)
+        self.tach.set_shaft_choices(self.shaft_names())
 
     def _refresh_sensor_choice(self) -> None:
         box = self.sensor_combo
@@ -403,7 +316,7 @@ class ModelForm(QWidget):
         for section, table in self.tables.items():
             parts[section], found = build_elements(section, table.rows())
             typing += found
-        tach, found = build_tach({k: _widget_text(w) for k, w in self.tach_widgets.items()})
+        tach, found = build_tach(self.tach.texts())
         typing += found
         return GearTrain(name=self.name_edit.text(), tach=tach, **parts), typing
 
@@ -456,7 +369,7 @@ class ModelForm(QWidget):
             table.set_marks(table_marks[section])
         for key, w in [("name", self.name_edit)] + [(f"tach.{k}", w) for k, w in self.tach_widgets.items()]:
             found = widget_marks.get(key, [])
-            _mark_widget(w, found)
+            mark_widget(w, found)
         for key, sec in self.sections.items():
             n = section_counts.get(key, 0)
             sec.set_note(f"({n} to fix)" if n else "")
@@ -524,6 +437,7 @@ class ModelForm(QWidget):
     def _status(self, html: str, *, error: bool = False) -> None:
         self.status_label.setStyleSheet("QLabel { color: #aa0000; }" if error else "")
         self.status_label.setText(html)
+        self.status_label.setVisible(bool(html))
 
 
 def _has_errors(problems: list[Problem]) -> bool:
@@ -532,38 +446,3 @@ def _has_errors(problems: list[Problem]) -> bool:
 
 def _escape(text: str) -> str:
     return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
-
-
-def _widget_text(w: QWidget) -> str:
-    return w.currentText() if isinstance(w, QComboBox) else w.text()
-
-
-def _set_widget_text(w: QWidget, text: str) -> None:
-    if isinstance(w, QComboBox):
-        i = w.findText(text)
-        if i < 0 and not w.isEditable():
-            w.addItem(text)
-            i = w.count() - 1
-        if i >= 0:
-            w.setCurrentIndex(i)
-        else:
-            w.setCurrentText(text)
-    else:
-        w.setText(text)
-
-
-def _mark_widget(w: QWidget, found: list[tuple[str, str]]) -> None:
-    name = type(w).__name__
-    if not found:
-        w.setProperty("problem", False)
-        w.setStyleSheet("")
-        base_tip = w.property("base_tip")
-        if base_tip is not None:
-            w.setToolTip(base_tip)
-        return
-    if w.property("base_tip") is None:
-        w.setProperty("base_tip", w.toolTip())
-    severity = "error" if any(s == "error" for s, _ in found) else "warning"
-    w.setProperty("problem", True)
-    w.setStyleSheet(f"{name} {{ {_MARK_STYLE[severity]} }}")
-    w.setToolTip("\n".join(m for _, m in found))

@@ -242,6 +242,6 @@ class ElementTable(QWidget):
     def _fit_height(self) -> None:
         t = self.table
         rows = min(max(t.rowCount(), 2), 8)
-        h = t.horizontalHeader().height() + rows * t.verticalHeader().defaultSectionSize()
+        h = t.horizontalHeader().sizeHint().height() + rows * t.verticalHeader().defaultSectionSize()
         h += 2 * t.frameWidth() + t.horizontalScrollBar().sizeHint().height()
         t.setFixedHeight(h)
