@@ -1,0 +1,493 @@
+"""The workbench window: composes the model form, the views and the results panel.
+
+It holds no signal processing: the document (:class:`workbench.session.Session`)
+holds the choices, :class:`workbench.jobs.AnalysisRunner` computes off the GUI
+thread, and the views draw what comes back.  Edits to the model or the settings
+re-run the analysis after a short pause; the last good result stays on screen while
+a new one is computed or when the new input is wrong.
+"""
+
+from __future__ import annotations
+
+import html
+import logging
+from pathlib import Path
+from typing import Any
+
+from PySide6.QtCore import QSettings, Qt, QTimer, Signal
+from PySide6.QtGui import QAction, QKeySequence
+from PySide6.QtWidgets import (QComboBox, QDockWidget, QFileDialog, QHBoxLayout, QLabel, QMainWindow,
+                               QProgressBar, QPushButton, QSplitter, QTabWidget, QVBoxLayout, QWidget)
+
+from workbench import theme
+from workbench.jobs import AnalysisRunner
+from workbench.results_panel import ResultsPanel
+from workbench.session import VIEW_NAMES, Session
+from workbench.views.cepstrum import CepstrumView
+from workbench.views.envelope import EnvelopeView
+from workbench.views.spectrum import SpectrumView
+from workbench.views.speed import SpeedView
+from workbench.views.tsa import TsaView
+from workbench.views.waveform import WaveformView
+
+log = logging.getLogger(__name__)
+
+RECORDING_SUFFIXES = (".flac", ".wav", ".ogg", ".aiff", ".aif", ".w64", ".rf64", ".caf")
+MODEL_SUFFIXES = (".toml",)
+N_RECENT = 8
+RERUN_DELAY_MS = 250
+FIRST_STEPS = ("No model file beside this recording. Enter in the form, in this order: the sensor channel "
+               "(and its scale), the tach channel or a nominal speed, then the shafts and the gears between them.")
+
+
+class Banner(QLabel):
+    """One line (or a few) of messages above the views, coloured by how serious they are."""
+
+    COLOURS = {"info": theme.BANNER_INFO, "warning": theme.BANNER_WARNING, "error": theme.BANNER_ERROR}
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self.setWordWrap(True)
+        self.setTextFormat(Qt.TextFormat.RichText)
+        self.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        self.parts: dict[str, tuple[str, str]] = {}
+        self.setVisible(False)
+
+    def set_part(self, key: str, level: str, text: str | None) -> None:
+        if text:
+            self.parts[key] = (level, text)
+        else:
+            self.parts.pop(key, None)
+        order = {"error": 0, "warning": 1, "info": 2}
+        shown = sorted(self.parts.values(), key=lambda part: order[part[0]])
+        self.setVisible(bool(shown))
+        if shown:
+            self.setStyleSheet(f"background: {self.COLOURS[shown[0][0]]}; color: {theme.FOREGROUND};"
+                               " padding: 6px; border-radius: 3px;")
+            self.setText("<br>".join(html.escape(text) for _, text in shown))
+
+    def plain_text(self) -> str:
+        return "\n".join(text for _, text in self.parts.values())
+
+
+def _model_form_widget():
+    """The side form for the model (``workbench.model_form``), or ``None`` if unavailable."""
+    try:
+        from workbench.model_form import ModelForm
+    except ImportError:  # pragma: no cover - the form ships with the package
+        log.exception("model form unavailable")
+        return None
+    return ModelForm()
+
+
+class MainWindow(QMainWindow):
+    """The workbench window.
+
+    Parameters
+    ----------
+    session : Session, optional
+        The document to show (a new empty one by default).
+    settings_store : QSettings, optional
+        Where recent files are remembered (the user's settings by default).
+    runner : AnalysisRunner, optional
+        The background runner (tests may pass one with another analysis function).
+    """
+
+    analysis_shown = Signal(object)      # the Analysis now on screen
+    analysis_failed = Signal(str)        # plain-words message
+    idle = Signal()                      # nothing left to compute
+    first_painted = Signal()             # emitted once, after the window was first painted
+
+    def __init__(self, session: Session | None = None, *, settings_store: QSettings | None = None,
+                 runner: AnalysisRunner | None = None):
+        super().__init__()
+        self.setWindowTitle("gearbench")
+        self.setAcceptDrops(True)
+        self.session = session or Session()
+        self.store = settings_store or QSettings(QSettings.Format.IniFormat, QSettings.Scope.UserScope,
+                                                 "gearbench", "workbench")
+        self.runner = runner or AnalysisRunner(self)
+        self.runner.setParent(self)
+        self.analysis: Any = None
+        self.recording: Any = None
+        self.last_error: str | None = None
+        self._build_central()
+        self._build_docks()
+        self._build_status()
+        self._build_menus()
+        self._rerun = QTimer(self, singleShot=True, interval=RERUN_DELAY_MS, timeout=self.run_analysis)
+        self.runner.started.connect(lambda _g: self._set_busy(True, "analysing..."))
+        self.runner.progress.connect(self._on_progress)
+        self.runner.finished.connect(self._on_finished)
+        self.runner.failed.connect(self._on_failed)
+        self.runner.cancelled.connect(self._on_cancelled)
+        self.runner.crashed.connect(lambda _g, msg, trace: self.report_unexpected(msg, trace))
+        self.session.subscribe(self._on_session_event)
+        self._painted = False
+        self.resize(1600, 1000)
+
+    def paintEvent(self, event):  # noqa: N802 - Qt override
+        super().paintEvent(event)
+        if not self._painted:
+            self._painted = True
+            # let the paint finish before anything heavy starts
+            QTimer.singleShot(0, self.first_painted.emit)
+
+    # ------------------------------------------------------------------ building
+    def _build_central(self) -> None:
+        central = QWidget()
+        layout = QVBoxLayout(central)
+        layout.setContentsMargins(6, 6, 6, 0)
+        self.banner = Banner()
+        layout.addWidget(self.banner)
+        top = QHBoxLayout()
+        top.addWidget(QLabel("Shaft"))
+        self.shaft_combo = QComboBox()
+        self.shaft_combo.setMinimumWidth(160)
+        self.shaft_combo.setToolTip("The shaft shown by the speed, spectrum-order, TSA and cepstrum views")
+        self.shaft_combo.currentTextChanged.connect(self._on_shaft_combo)
+        top.addWidget(self.shaft_combo)
+        self.file_label = QLabel("")
+        self.file_label.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        top.addSpacing(16)
+        top.addWidget(self.file_label, 1)
+        layout.addLayout(top)
+        self.tabs = QTabWidget()
+        self.views = {}
+        for cls in (WaveformView, SpeedView, SpectrumView, TsaView, EnvelopeView, CepstrumView):
+            view = cls(self.session)
+            self.views[view.name] = view
+            self.tabs.addTab(view, view.title)
+        self.tabs.setCurrentWidget(self.views[self.session.current_view])
+        self.tabs.currentChanged.connect(lambda i: self.session.set_current_view(self.tabs.widget(i).name))
+        layout.addWidget(self.tabs, 1)
+        self.setCentralWidget(central)
+
+    def _build_docks(self) -> None:
+        from workbench.model_form_freq import FrequencyTablePanel
+
+        self.form = _model_form_widget()
+        self.frequency_panel = FrequencyTablePanel()
+        splitter = QSplitter(Qt.Orientation.Vertical)
+        if self.form is not None:
+            splitter.addWidget(self.form)
+            self.form.model_changed.connect(self.apply_model)
+            self.form.problems_changed.connect(self._on_problems)
+            self.form.sensor_selected.connect(self._on_sensor_selected)
+        splitter.addWidget(self.frequency_panel)
+        splitter.setSizes([620, 300])
+        left = QDockWidget("Gear train", self)
+        left.setObjectName("model_dock")
+        left.setWidget(splitter)
+        left.setFeatures(QDockWidget.DockWidgetFeature.DockWidgetMovable | QDockWidget.DockWidgetFeature.DockWidgetFloatable)
+        self.addDockWidget(Qt.DockWidgetArea.LeftDockWidgetArea, left)
+        self.results = ResultsPanel()
+        self.results.suspect_chosen.connect(self.show_suspect)
+        right = QDockWidget("Results", self)
+        right.setObjectName("results_dock")
+        right.setWidget(self.results)
+        right.setFeatures(left.features())
+        self.addDockWidget(Qt.DockWidgetArea.RightDockWidgetArea, right)
+        self.resizeDocks([left, right], [430, 400], Qt.Orientation.Horizontal)
+
+    def _build_status(self) -> None:
+        bar = self.statusBar()
+        self.status_label = QLabel("Ready")
+        self.progress = QProgressBar()
+        self.progress.setRange(0, 100)
+        self.progress.setMaximumWidth(220)
+        self.progress.setVisible(False)
+        self.cancel_button = QPushButton("Cancel")
+        self.cancel_button.setToolTip("Stop the running analysis; the last result stays on screen")
+        self.cancel_button.setEnabled(False)
+        self.cancel_button.clicked.connect(self.runner.cancel)
+        bar.addWidget(self.status_label, 1)
+        bar.addPermanentWidget(self.progress)
+        bar.addPermanentWidget(self.cancel_button)
+
+    def _build_menus(self) -> None:
+        menu = self.menuBar().addMenu("&File")
+        for text, key, slot in (
+            ("&Open recording...", QKeySequence.StandardKey.Open, self._ask_recording),
+            ("Open &model...", None, self._ask_model),
+            ("&Save model", QKeySequence.StandardKey.Save, self._save_model),
+            ("Save model &as...", QKeySequence.StandardKey.SaveAs, lambda: self._save_model(ask=True)),
+        ):
+            action = QAction(text, self)
+            if key is not None:
+                action.setShortcut(key)
+            action.triggered.connect(slot)
+            menu.addAction(action)
+        self.recent_menu = menu.addMenu("Open &recent")
+        self._fill_recent()
+        menu.addSeparator()
+        quit_action = QAction("&Quit", self)
+        quit_action.setShortcut(QKeySequence.StandardKey.Quit)
+        quit_action.triggered.connect(self.close)
+        menu.addAction(quit_action)
+        view_menu = self.menuBar().addMenu("&View")
+        for index, name in enumerate(VIEW_NAMES):
+            action = QAction(self.views[name].title, self)
+            action.setShortcut(QKeySequence(f"Ctrl+{index + 1}"))
+            action.triggered.connect(lambda _=False, n=name: self.session.set_current_view(n))
+            view_menu.addAction(action)
+
+    # ------------------------------------------------------------------ files
+    def open_recording(self, path: str | Path, model_path: str | Path | None = None) -> None:
+        """Open a recording with its model (``model_path``, else the same-stem .toml beside it)."""
+        path = Path(path)
+        self.runner.cancel()
+        self.analysis, self.recording, self.last_error = None, None, None
+        for view in self.views.values():
+            view.clear()
+        self.banner.set_part("analysis", "error", None)
+        self.banner.set_part("warnings", "warning", None)
+        self.session.set_recording(path)
+        self.file_label.setText(html.escape(str(path)))
+        self.setWindowTitle(f"{path.name} - gearbench")
+        self._remember(path)
+        model_path = Path(model_path) if model_path is not None else path.with_suffix(".toml")
+        if model_path.exists():
+            self.open_model(model_path)
+        else:
+            self.session.set_model(None, None)
+            if self.form is not None:
+                self.form.set_model(None)
+            self.banner.set_part("first_steps", "info", FIRST_STEPS)
+        self._update_frequency_table()
+        self.run_analysis()
+
+    def open_model(self, path: str | Path) -> bool:
+        """Load a model file into the form and the document; problems are shown, not raised."""
+        from dsp.errors import GearbenchError
+        from dsp.model import load_model
+
+        path = Path(path)
+        try:
+            model = load_model(path)
+        except (GearbenchError, OSError) as exc:
+            self.banner.set_part("model", "error", f"Could not load the model {path.name}: {exc}")
+            if self.form is not None:
+                self.form.load_file(path)   # marks the fields in the form
+            return False
+        self.banner.set_part("model", "info", None)
+        if self.form is not None:
+            self.form.set_model(model, n_channels=getattr(self.recording, "n_channels", None))
+            self.form.path = path
+        self.session.set_model(model, path)
+        self._remember(path)
+        return True
+
+    def apply_model(self, model: Any) -> bool:
+        """Use an edited model if it has no errors; otherwise show the problems and keep the last result."""
+        from dsp.model import validate
+
+        problems = validate(model, n_channels=getattr(self.recording, "n_channels", None))
+        errors = [p for p in problems if p.severity == "error"]
+        if errors:
+            self._on_problems(problems)
+            return False
+        self.banner.set_part("model", "error", None)
+        self.session.set_model(model)
+        return True
+
+    def _on_problems(self, problems: list) -> None:
+        errors = [p for p in problems if getattr(p, "severity", "error") == "error"]
+        if not errors:
+            self.banner.set_part("model", "error", None)
+            return
+        more = f" (and {len(errors) - 1} more)" if len(errors) > 1 else ""
+        shown = "the last good result stays on screen" if self.analysis is not None else "nothing can be analysed yet"
+        self.banner.set_part("model", "error", f"Model: {errors[0]}{more}; {shown} until it is fixed.")
+
+    def _ask_recording(self) -> None:
+        path, _ = QFileDialog.getOpenFileName(self, "Open recording", str(self._start_dir()),
+                                              "Recordings (" + " ".join(f"*{s}" for s in RECORDING_SUFFIXES) + ")")
+        if path:
+            self.open_recording(path)
+
+    def _ask_model(self) -> None:
+        path, _ = QFileDialog.getOpenFileName(self, "Open model", str(self._start_dir()), "Models (*.toml)")
+        if path:
+            self.open_model(path)
+
+    def _save_model(self, ask: bool = False) -> None:
+        if self.form is None:
+            return
+        path = None if ask else (self.form.path or self.session.model_path)
+        if path is None:
+            path, _ = QFileDialog.getSaveFileName(self, "Save model", str(self._start_dir()), "Models (*.toml)")
+        if path and self.form.save_file(path):
+            self.session.model_path = Path(path)
+            self.status_label.setText(f"Model saved to {path}")
+
+    def _start_dir(self) -> Path:
+        return self.session.recording_path.parent if self.session.recording_path else Path.cwd()
+
+    def _remember(self, path: Path) -> None:
+        recent = [str(path.resolve())] + [p for p in self._recent() if p != str(path.resolve())]
+        self.store.setValue("recent_files", recent[:N_RECENT])
+        self._fill_recent()
+
+    def _recent(self) -> list[str]:
+        value = self.store.value("recent_files", [])
+        return [value] if isinstance(value, str) else list(value or [])
+
+    def _fill_recent(self) -> None:
+        self.recent_menu.clear()
+        for path in self._recent():
+            action = self.recent_menu.addAction(path)
+            action.triggered.connect(lambda _=False, p=path: self._open_any(Path(p)))
+        self.recent_menu.setEnabled(bool(self._recent()))
+
+    def _open_any(self, path: Path) -> None:
+        if path.suffix.lower() in MODEL_SUFFIXES:
+            self.open_model(path)
+        else:
+            self.open_recording(path)
+
+    def dragEnterEvent(self, event):  # noqa: N802 - Qt override
+        urls = event.mimeData().urls() if event.mimeData().hasUrls() else []
+        if urls and Path(urls[0].toLocalFile()).suffix.lower() in RECORDING_SUFFIXES + MODEL_SUFFIXES:
+            event.acceptProposedAction()
+
+    def dropEvent(self, event):  # noqa: N802 - Qt override
+        for url in event.mimeData().urls():
+            self._open_any(Path(url.toLocalFile()))
+        event.acceptProposedAction()
+
+    # ------------------------------------------------------------------ analysis
+    def run_analysis(self) -> None:
+        """Hand the document's current state to the worker (a running analysis is cancelled)."""
+        self._rerun.stop()
+        if self.session.recording_path is None or self.session.model is None:
+            return
+        recording = self.recording if self.recording is not None else None
+        self.runner.submit(recording=recording, model=self.session.model, settings=self.session.settings,
+                           recording_path=self.session.recording_path)
+        self._set_busy(True, "analysing...")
+
+    def _on_session_event(self, event) -> None:
+        if event.kind == "model":
+            if event.value is not None:
+                self.banner.set_part("first_steps", "info", None)
+            self._fill_shafts()
+            self._update_frequency_table()
+            self._rerun.start()
+        elif event.kind == "settings":
+            self._rerun.start()
+        elif event.kind == "shaft":
+            if self.shaft_combo.currentText() != (event.value or ""):
+                self.shaft_combo.setCurrentText(event.value or "")
+        elif event.kind == "view":
+            self.tabs.setCurrentWidget(self.views[event.value])
+
+    def _on_shaft_combo(self, text: str) -> None:
+        if text and text != self.session.selected_shaft and self.session.model is not None:
+            self.session.select_shaft(text)
+
+    def _on_sensor_selected(self, index: int) -> None:
+        if index >= 0:
+            self.session.update_settings(sensor_index=index)
+
+    def _fill_shafts(self) -> None:
+        from PySide6.QtGui import QColor
+
+        model = self.session.model
+        self.shaft_combo.blockSignals(True)
+        self.shaft_combo.clear()
+        for i, name in enumerate(model.shaft_names() if model is not None else ()):
+            self.shaft_combo.addItem(name)
+            self.shaft_combo.setItemData(i, QColor(theme.shaft_colour(model, name)), Qt.ItemDataRole.ForegroundRole)
+        self.shaft_combo.setCurrentText(self.session.selected_shaft or "")
+        self.shaft_combo.blockSignals(False)
+
+    def _update_frequency_table(self) -> None:
+        """Frequencies of the current model at the last known speed (the analysis refines it)."""
+        from dsp.errors import GearbenchError
+        from dsp.kinematics import frequency_table
+
+        model = self.session.model
+        if model is None or not model.shafts:
+            self.frequency_panel.set_table(None)
+            return
+        reference = model.tach.shaft if model.tach.shaft in model.shaft_names() else model.shaft_names()[0]
+        speed = getattr(self.analysis, "speed", None)
+        if speed is not None and speed.shaft == reference:
+            reference_hz = float(speed.mean_hz)
+        elif model.tach.nominal_rpm:
+            reference_hz = float(model.tach.nominal_rpm) / 60.0
+        else:
+            reference_hz = 1.0   # no speed yet: Hz column reads as orders of the reference shaft
+        try:
+            table = frequency_table(model, reference_hz, reference)
+        except (GearbenchError, ValueError) as exc:
+            self.frequency_panel.set_table(None)
+            self.banner.set_part("model", "error", f"Model: {exc}")
+            return
+        self.frequency_panel.set_table(table)
+
+    def _on_progress(self, _gen: int, fraction: float, text: str) -> None:
+        self.progress.setValue(int(round(100 * fraction)))
+        if text:
+            self.status_label.setText(text)
+
+    def _on_finished(self, _gen: int, result: Any) -> None:
+        self.recording = result.recording
+        self.analysis = result.analysis
+        self.last_error = None
+        if self.form is not None:
+            self.form.set_n_channels(self.recording.n_channels)
+        for view in self.views.values():
+            view.show_analysis(self.analysis, self.recording)
+        self.results.show_analysis(self.analysis)
+        self.frequency_panel.set_table(self.analysis.frequencies)
+        self.banner.set_part("analysis", "error", None)
+        warnings = list(self.analysis.warnings)
+        self.banner.set_part("warnings", "warning", "; ".join(warnings) if warnings else None)
+        self._set_busy(False, f"Analysed in {result.elapsed_s:.2f} s")
+        self.analysis_shown.emit(self.analysis)
+        self.idle.emit()
+
+    def _on_failed(self, _gen: int, message: str) -> None:
+        self.last_error = message
+        kept = " The last good result stays on screen." if self.analysis is not None else ""
+        self.banner.set_part("analysis", "error", f"{message}.{kept}".replace("..", "."))
+        self._set_busy(False, "Analysis stopped: " + message)
+        self.analysis_failed.emit(message)
+        self.idle.emit()
+
+    def _on_cancelled(self, _gen: int) -> None:
+        self._set_busy(False, "Analysis cancelled" + ("; showing the last result" if self.analysis is not None else ""))
+        self.idle.emit()
+
+    def report_unexpected(self, message: str, trace: str = "") -> None:
+        """The one place for unexpected errors: log them and say so in the window."""
+        log.error("unexpected error: %s\n%s", message, trace)
+        self.last_error = message
+        self.banner.set_part("analysis", "error", f"Unexpected error ({message}); please report it with the log.")
+        self._set_busy(False, "Unexpected error: " + message)
+        self.analysis_failed.emit(message)
+        self.idle.emit()
+
+    def _set_busy(self, busy: bool, text: str) -> None:
+        self.progress.setVisible(busy)
+        if busy:
+            self.progress.setValue(0)
+        self.cancel_button.setEnabled(busy)
+        self.status_label.setText(text)
+
+    def is_busy(self) -> bool:
+        return self.runner.is_busy() or self._rerun.isActive()
+
+    # ------------------------------------------------------------------ navigation
+    def show_suspect(self, view: str, shaft: str) -> None:
+        """Select the suspect's shaft and show the view that best supports it."""
+        if shaft and self.session.model is not None and shaft in self.session.model.shaft_names():
+            self.session.select_shaft(shaft)
+        if view in VIEW_NAMES:
+            self.session.set_current_view(view)
+
+    def closeEvent(self, event):  # noqa: N802 - Qt override
+        self.runner.shutdown()
+        super().closeEvent(event)

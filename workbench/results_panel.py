@@ -1,0 +1,141 @@
+"""Results panel: overall indicators, TSA indicators per shaft, sideband ownership, suspects.
+
+The suspects list is titled as an aid to the analyst's judgement.  Clicking a suspect
+emits ``suspect_chosen(view_name, shaft_name)`` so the window can show the view that
+best supports it with its shaft selected.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from PySide6.QtCore import Qt, Signal
+from PySide6.QtWidgets import (QAbstractItemView, QGroupBox, QHeaderView, QLabel, QListWidget,
+                               QListWidgetItem, QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget)
+
+from workbench import theme
+
+OVERALL_KEYS = (
+    ("rms", "RMS"), ("peak", "peak"), ("crest_factor", "crest factor"), ("kurtosis", "kurtosis"),
+    ("velocity_rms_mm_s", "velocity RMS (mm/s)"), ("clipped", "clipped"),
+)
+TSA_KEYS = ("rms", "kurtosis", "fm0", "fm4", "na4", "m6a", "m8a", "er")
+SIDEBAND_COLUMNS = (
+    ("mesh", "mesh"), ("harmonic", "GMF×"), ("carrier_hz", "carrier Hz"), ("owner_shaft", "owner shaft"),
+    ("spacing_hz", "spacing Hz"), ("sideband_index", "SI"), ("sideband_level_factor", "SLF"),
+)
+SUSPECTS_TITLE = "Suspects - an aid to your judgement, not a verdict"
+
+
+def fmt(value: Any) -> str:
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, (int, float)):
+        if isinstance(value, float) and not math.isfinite(value):
+            return "n/a"
+        magnitude = abs(value)
+        if isinstance(value, int):
+            return str(value)
+        if magnitude != 0 and (magnitude < 1e-3 or magnitude >= 1e5):
+            return f"{value:.3e}"
+        return f"{value:.4g}"
+    return "" if value is None else str(value)
+
+
+def _table(columns: list[str]) -> QTableWidget:
+    table = QTableWidget(0, len(columns))
+    table.setHorizontalHeaderLabels(columns)
+    table.verticalHeader().setVisible(False)
+    table.verticalHeader().setDefaultSectionSize(20)
+    table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
+    table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
+    table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+    table.horizontalHeader().setStretchLastSection(True)
+    return table
+
+
+def _fill(table: QTableWidget, rows: list[list[str]], colours: list[str | None] | None = None) -> None:
+    table.setRowCount(len(rows))
+    for r, row in enumerate(rows):
+        for c, text in enumerate(row):
+            item = QTableWidgetItem(text)
+            if c > 0:
+                item.setTextAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
+            if colours and c == 0 and colours[r]:
+                from PySide6.QtGui import QColor
+
+                item.setForeground(QColor(colours[r]))
+            table.setItem(r, c, item)
+
+
+class ResultsPanel(QWidget):
+    suspect_chosen = Signal(str, str)   # view name, shaft name ("" when none)
+
+    def __init__(self, parent: QWidget | None = None):
+        super().__init__(parent)
+        layout = QVBoxLayout(self)
+        layout.setContentsMargins(4, 4, 4, 4)
+        self.overall = _table(["indicator", "value"])
+        self.tsa = _table(["shaft", "revs"] + list(TSA_KEYS))
+        self.sidebands = _table([text for _, text in SIDEBAND_COLUMNS])
+        self.suspects = QListWidget()
+        self.suspects.setWordWrap(True)
+        self.suspects.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
+        self.suspects.itemClicked.connect(self._on_suspect)
+        self.suspects.itemActivated.connect(self._on_suspect)
+        self.empty_suspects = QLabel("")
+        self.empty_suspects.setWordWrap(True)
+        for title, widget, stretch in (
+            (SUSPECTS_TITLE, (self.empty_suspects, self.suspects), 3),
+            ("Overall (sensor units)", (self.overall,), 2),
+            ("TSA indicators per shaft", (self.tsa,), 2),
+            ("Sidebands: which shaft owns each family", (self.sidebands,), 2),
+        ):
+            box = QGroupBox(title)
+            inner = QVBoxLayout(box)
+            inner.setContentsMargins(4, 4, 4, 4)
+            for w in widget:
+                inner.addWidget(w)
+            layout.addWidget(box, stretch)
+        self.model: Any = None
+
+    def show_analysis(self, analysis: Any) -> None:
+        self.model = analysis.model
+        overall = dict(analysis.overall or {})
+        _fill(self.overall, [[text, fmt(overall[key])] for key, text in OVERALL_KEYS if key in overall])
+        rows, colours = [], []
+        for item in analysis.tsa:
+            rows.append([item.shaft, str(item.n_revs)] + [fmt(item.indicators.get(k)) for k in TSA_KEYS])
+            colours.append(theme.shaft_colour(self.model, item.shaft))
+        _fill(self.tsa, rows, colours)
+        rows = [[fmt(getattr(family, key, None)) for key, _ in SIDEBAND_COLUMNS] for family in analysis.sidebands]
+        _fill(self.sidebands, rows)
+        self.suspects.clear()
+        for rank, suspect in enumerate(analysis.suspects, 1):
+            evidence = "\n".join(f"  • {line}" for line in getattr(suspect, "evidence", ()) or ())
+            text = f"{rank}. {suspect.component}: {suspect.kind} (score {suspect.score:.2f})"
+            item = QListWidgetItem(text + ("\n" + evidence if evidence else ""))
+            item.setData(Qt.ItemDataRole.UserRole, (getattr(suspect, "view", "") or "", self.shaft_of(suspect.component)))
+            item.setToolTip(f"Show the {getattr(suspect, 'view', '') or 'best'} view for {suspect.component}")
+            self.suspects.addItem(item)
+        self.empty_suspects.setText(
+            "" if analysis.suspects else
+            f"Nothing passes the alarm threshold ({analysis.settings.alarm_threshold:g}). "
+            "Look at the views before concluding the gearbox is healthy.")
+        self.empty_suspects.setVisible(not analysis.suspects)
+
+    def shaft_of(self, component: str) -> str:
+        """The shaft a suspect component sits on (``shaft:NAME`` or ``bearing:NAME``)."""
+        kind, _, name = str(component).partition(":")
+        if kind == "shaft":
+            return name
+        if kind == "bearing" and self.model is not None:
+            for bearing in self.model.bearings:
+                if bearing.name == name:
+                    return bearing.shaft
+        return ""
+
+    def _on_suspect(self, item: QListWidgetItem) -> None:
+        view, shaft = item.data(Qt.ItemDataRole.UserRole)
+        self.suspect_chosen.emit(view, shaft)

@@ -1,0 +1,153 @@
+"""Envelope spectrum view, with the kurtogram map that chose the band.
+
+The envelope band is shown in the caption and on the kurtogram; it comes from the
+kurtogram unless the analyst dragged one on the spectrum view.  Marks show the
+rotation rate of the selected shaft and its harmonics, and the defect frequencies
+of the bearings on that shaft.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pyqtgraph as pg
+from PySide6.QtWidgets import QCheckBox
+
+from workbench import theme
+from workbench.views.base import AnalysisView
+
+N_MARKS = 10
+BEARING_KEYS = (("bpfo_hz", "BPFO"), ("bpfi_hz", "BPFI"), ("bsf_hz", "BSF"), ("ftf_hz", "FTF"))
+
+
+class EnvelopeView(AnalysisView):
+    name = "envelope"
+    title = "Envelope"
+
+    def __init__(self, session, parent=None):
+        super().__init__(session, parent)
+        self.kurtogram_box = QCheckBox("show kurtogram")
+        self.controls.addWidget(self.kurtogram_box)
+        self.finish_controls()
+        self.plot = self.add_plot(x_label="frequency (Hz)", y_label="envelope amplitude", stretch=3)
+        self.curve = self.plot.plot(pen=pg.mkPen(theme.CURVE, width=1))
+        self.curve.setClipToView(True)
+        self.curve.setDownsampling(auto=True, method="peak")
+        self.marks = []
+        for _ in range(N_MARKS):
+            line = pg.InfiniteLine(angle=90, movable=False, label="",
+                                   labelOpts={"position": 0.92, "color": theme.FOREGROUND})
+            line.setVisible(False)
+            self.plot.addItem(line, ignoreBounds=True)
+            self.marks.append(line)
+        self.kurt_plot = self.add_plot(x_label="frequency (Hz)", y_label="level", stretch=2)
+        self.kurt_widget = self.last_plot_widget
+        self.image = pg.ImageItem(axisOrder="row-major")
+        self.image.setColorMap(pg.colormap.get("viridis"))
+        self.kurt_plot.addItem(self.image)
+        self.best_box = pg.PlotDataItem(pen=pg.mkPen("#FFFFFF", width=2))
+        self.kurt_plot.addItem(self.best_box)
+        self.kurt_widget.setVisible(False)
+        self.kurtogram_box.toggled.connect(lambda on: self.session.set_view_options(show_kurtogram=on))
+
+    def data_items(self):
+        return [self.curve]
+
+    def kurtogram_shown(self) -> bool:
+        return self.kurt_widget.isVisible()
+
+    def refresh(self) -> None:
+        analysis = self.analysis
+        env = getattr(analysis, "envelope", None)
+        if env is None:
+            return
+        show = self.session.view_options.show_kurtogram
+        if self.kurtogram_box.isChecked() != show:
+            self.kurtogram_box.blockSignals(True)
+            self.kurtogram_box.setChecked(show)
+            self.kurtogram_box.blockSignals(False)
+        units = self.sensor_units()
+        freq = np.asarray(env.freq_hz, dtype=float)
+        amp = np.asarray(env.amplitude, dtype=float)
+        self.curve.setData(freq, amp)
+        squared = getattr(env, "squared", False)
+        self.plot.setLabel("left", f"{'squared envelope' if squared else 'envelope'} ({units}{'²' if squared else ''})")
+        shaft = self.session.selected_shaft
+        self._draw_marks(shaft)
+        top = self._top_frequency(shaft)
+        self.plot.setXRange(0, top if top else float(freq[-1]), padding=0)
+        visible = amp[freq <= (top or freq[-1])][1:]
+        if visible.size:
+            self.plot.setYRange(0, float(visible.max()) * 1.1, padding=0)
+        lo, hi = env.band_hz
+        self.caption.setText(f"band {lo:.0f} to {hi:.0f} Hz, "
+                             + ("chosen by the kurtogram" if env.band_source == "kurtogram" else "chosen by you"))
+        self._draw_kurtogram(show)
+
+    def _top_frequency(self, shaft: str | None) -> float | None:
+        """Show up to ~5x the highest marked frequency, so the fault lines are readable."""
+        values = [line.value() for line in self.marks if line.isVisible()]
+        return 5.0 * max(values) if values else None
+
+    def _draw_marks(self, shaft: str | None) -> None:
+        table = getattr(self.analysis, "frequencies", None)
+        marks = []
+        rate = self.shaft_rate_hz(shaft)
+        if rate:
+            marks += [(f"{shaft} ×{h}" if h > 1 else f"{shaft}", h * rate, theme.shaft_colour(self.analysis.model, shaft))
+                      for h in (1, 2, 3)]
+        for bearing in getattr(table, "bearings", ()) or ():
+            if bearing.shaft != shaft:
+                continue
+            for key, text in BEARING_KEYS:
+                value = getattr(bearing, key, None)
+                if value:
+                    marks.append((f"{bearing.name} {text}", float(value), theme.MARK_REPAIRED))
+        for line, mark in zip(self.marks, marks[:N_MARKS] + [None] * (N_MARKS - min(len(marks), N_MARKS))):
+            if mark is None:
+                line.setVisible(False)
+                continue
+            line.setPen(pg.mkPen(mark[2], width=1, style=pg.QtCore.Qt.PenStyle.DashLine))
+            line.label.setFormat(mark[0])
+            line.setValue(mark[1])
+            line.setVisible(True)
+
+    def _draw_kurtogram(self, show: bool) -> None:
+        self.kurt_widget.setVisible(show)
+        kurtogram = getattr(self.analysis, "kurtogram", None)
+        if not show or kurtogram is None:
+            return
+        rows = kurtogram_rows(kurtogram)
+        if rows is None:
+            return
+        fs = float(self.analysis.recording.get("sample_rate_hz", 2.0)) if isinstance(self.analysis.recording, dict) else 2.0
+        levels = [float(v) for v in np.asarray(kurtogram.levels).ravel()]
+        self.image.setImage(rows, autoLevels=True)
+        self.image.setRect(0.0, 0.0, fs / 2.0, float(rows.shape[0]))
+        axis = self.kurt_plot.getAxis("left")
+        axis.setTicks([[(i + 0.5, f"{lvl:g}") for i, lvl in enumerate(levels)]])
+        self.kurt_plot.setLabel("left", "level")
+        self.kurt_plot.getViewBox().invertY(True)
+        best = getattr(kurtogram, "best_band_hz", None)
+        best_level = getattr(kurtogram, "best_level", None)
+        if best is not None and best_level is not None and float(best_level) in levels:
+            i = levels.index(float(best_level))
+            lo, hi = best
+            self.best_box.setData([lo, hi, hi, lo, lo], [i, i, i + 1, i + 1, i])
+        self.kurt_plot.setTitle(f"kurtogram: best band {best[0]:.0f} to {best[1]:.0f} Hz" if best is not None else "kurtogram")
+
+
+def kurtogram_rows(kurtogram) -> np.ndarray | None:
+    """The kurtogram as a 2-D image, one row per level (ragged rows repeated to a common width)."""
+    values = kurtogram.kurtosis
+    if isinstance(values, np.ndarray) and values.ndim == 2:
+        return np.asarray(values, dtype=float)
+    rows = [np.asarray(r, dtype=float).ravel() for r in values]
+    if not rows:
+        return None
+    width = int(np.lcm.reduce([r.size for r in rows if r.size] or [1]))
+    width = min(width, 4096)
+    image = np.empty((len(rows), width))
+    for i, row in enumerate(rows):
+        idx = (np.arange(width) * row.size) // width
+        image[i] = row[idx]
+    return image

@@ -1,0 +1,216 @@
+"""Spectrum view: averaged amplitude spectrum with a choice of axis and units.
+
+x axis in Hz, cycles per minute (CPM) or orders of the selected shaft (the order
+spectrum from angular resampling when the amplitude is an acceleration, the
+frequency spectrum divided by the shaft's mean rate for velocity).  Amplitude in g,
+m/s2 or mm/s (the velocity spectrum of the analysis).  Marks show the gear mesh
+frequency (GMF) harmonics of the meshes on the selected shaft.  The orange region,
+shown with "Choose envelope band", sets the envelope band and re-runs the analysis.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pyqtgraph as pg
+from PySide6.QtWidgets import QCheckBox, QComboBox, QDoubleSpinBox, QLabel, QPushButton
+
+from workbench import theme
+from workbench.views.base import AnalysisView, convert_acceleration, positive_for_log
+
+X_CHOICES = (("hz", "Hz"), ("cpm", "CPM"), ("order", "orders"))
+Y_CHOICES = (("g", "g"), ("m/s2", "m/s²"), ("mm/s", "mm/s"))
+N_MARKS = 12
+N_GMF_HARMONICS = 3
+
+
+class SpectrumView(AnalysisView):
+    name = "spectrum"
+    title = "Spectrum"
+    listens_to = ("shaft", "view_options", "settings")
+
+    def __init__(self, session, parent=None):
+        super().__init__(session, parent)
+        self.x_combo = QComboBox()
+        for key, text in X_CHOICES:
+            self.x_combo.addItem(text, key)
+        self.y_combo = QComboBox()
+        for key, text in Y_CHOICES:
+            self.y_combo.addItem(text, key)
+        self.log_box = QCheckBox("log amplitude")
+        self.centre_spin = _spin("centre ", " Hz", 0, 1e6, 1000)
+        self.span_spin = _spin("span ", " Hz", 1, 1e6, 500)
+        zoom = QPushButton("Zoom band")
+        full = QPushButton("Full range")
+        self.band_button = QPushButton("Choose envelope band")
+        self.band_button.setCheckable(True)
+        self.band_button.setToolTip("Drag the orange region to the band to demodulate; the analysis re-runs")
+        self.auto_band = QPushButton("Band from kurtogram")
+        for text, widget in (("x axis", self.x_combo), ("amplitude", self.y_combo)):
+            self.controls.addWidget(QLabel(text))
+            self.controls.addWidget(widget)
+        for widget in (self.log_box, self.centre_spin, self.span_spin, zoom, full, self.band_button, self.auto_band):
+            self.controls.addWidget(widget)
+        self.finish_controls()
+        self.plot = self.add_plot(x_label="frequency (Hz)", y_label="amplitude")
+        self.curve = self.plot.plot(pen=pg.mkPen(theme.CURVE, width=1))
+        self.curve.setClipToView(True)
+        self.curve.setDownsampling(auto=True, method="peak")
+        self.marks = []
+        for _ in range(N_MARKS):
+            line = pg.InfiniteLine(angle=90, movable=False, pen=pg.mkPen(theme.SHAFT_COLOURS[0], width=1,
+                                                                         style=pg.QtCore.Qt.PenStyle.DashLine),
+                                   label="", labelOpts={"position": 0.93, "color": theme.FOREGROUND})
+            line.setVisible(False)
+            self.plot.addItem(line, ignoreBounds=True)
+            self.marks.append(line)
+        self.band_region = pg.LinearRegionItem(brush=pg.mkBrush(*theme.REGION_BAND))
+        self.band_region.setVisible(False)
+        self.band_region.setZValue(10)
+        self.plot.addItem(self.band_region, ignoreBounds=True)
+        self.band_region.sigRegionChangeFinished.connect(self._on_band_finished)
+        self._updating = False
+        self._sync_controls()
+        self.x_combo.currentIndexChanged.connect(self._on_controls)
+        self.y_combo.currentIndexChanged.connect(self._on_controls)
+        self.log_box.toggled.connect(self._on_controls)
+        zoom.clicked.connect(self._on_zoom)
+        full.clicked.connect(lambda: self.session.set_view_options(spectrum_zoom_hz=None))
+        self.band_button.toggled.connect(self._on_band_toggled)
+        self.auto_band.clicked.connect(lambda: self.session.set_envelope_band(None))
+
+    def data_items(self):
+        return [self.curve]
+
+    # -- session -> widgets
+    def _sync_controls(self) -> None:
+        options = self.session.view_options
+        self._updating = True
+        self.x_combo.setCurrentIndex([k for k, _ in X_CHOICES].index(options.spectrum_x))
+        self.y_combo.setCurrentIndex([k for k, _ in Y_CHOICES].index(options.spectrum_units))
+        self.log_box.setChecked(options.spectrum_log_y)
+        self._updating = False
+
+    def _on_event(self, event) -> None:
+        if event.kind == "view_options":
+            self._sync_controls()
+        super()._on_event(event)
+
+    # -- widgets -> session
+    def _on_controls(self, *_args) -> None:
+        if self._updating:
+            return
+        self.session.set_view_options(spectrum_x=self.x_combo.currentData(),
+                                      spectrum_units=self.y_combo.currentData(),
+                                      spectrum_log_y=self.log_box.isChecked())
+
+    def _on_zoom(self) -> None:
+        centre, span = self.centre_spin.value(), self.span_spin.value()
+        self.session.set_view_options(spectrum_zoom_hz=(max(centre - span / 2, 0.0), centre + span / 2))
+
+    def _on_band_toggled(self, on: bool) -> None:
+        self.band_region.setVisible(on)
+        if on and self.analysis is not None:
+            self._place_band_region()
+
+    def _on_band_finished(self) -> None:
+        if self._updating or not self.band_region.isVisible():
+            return
+        lo, hi = (self._to_hz(v) for v in self.band_region.getRegion())
+        if lo is None or hi is None or hi <= lo:
+            return
+        self.session.set_envelope_band((max(lo, 0.0), hi))
+
+    # -- drawing
+    def _scale_hz(self) -> float | None:
+        """Display x units per Hz for the current axis (None: orders without a shaft rate)."""
+        x = self.session.view_options.spectrum_x
+        if x == "hz":
+            return 1.0
+        if x == "cpm":
+            return 60.0
+        rate = self.shaft_rate_hz(self.session.selected_shaft)
+        return 1.0 / rate if rate else None
+
+    def _to_hz(self, value: float) -> float | None:
+        scale = self._scale_hz()
+        return None if not scale else float(value) / scale
+
+    def refresh(self) -> None:
+        analysis = self.analysis
+        if analysis is None or analysis.spectrum is None:
+            return
+        options = self.session.view_options
+        shaft = self.session.selected_shaft
+        units = options.spectrum_units
+        scale = self._scale_hz()
+        if scale is None:  # no rate for this shaft: fall back to Hz
+            scale = 1.0
+            x_label = "frequency (Hz)"
+        else:
+            x_label = {"hz": "frequency (Hz)", "cpm": "frequency (CPM)",
+                       "order": f"order of {shaft}"}[options.spectrum_x]
+        if units == "mm/s":
+            source = analysis.velocity_spectrum
+            x = np.asarray(source.freq_hz) * scale
+            y = np.asarray(source.amplitude, dtype=float)
+        elif options.spectrum_x == "order" and scale != 1.0 and getattr(analysis, "order_spectrum", None) is not None:
+            # order spectrum is in reference-shaft orders; shaft order = f_shaft / f_reference
+            f_ref = self.shaft_rate_hz(analysis.frequencies.reference_shaft) or 1.0
+            x = np.asarray(analysis.order_spectrum.order) * f_ref * scale
+            y = convert_acceleration(np.asarray(analysis.order_spectrum.amplitude, dtype=float),
+                                     self.sensor_units(), units)
+        else:
+            x = np.asarray(analysis.spectrum.freq_hz) * scale
+            y = convert_acceleration(np.asarray(analysis.spectrum.amplitude, dtype=float), self.sensor_units(), units)
+        self.plot.setLogMode(x=False, y=options.spectrum_log_y)
+        self.curve.setData(x, positive_for_log(y) if options.spectrum_log_y else y)
+        scaling = getattr(analysis.settings, "spectrum_scaling", "peak")
+        unit_text = {"g": "g", "m/s2": "m/s²", "mm/s": "mm/s"}[units]
+        self.plot.setLabel("left", f"amplitude ({unit_text} {scaling})")
+        self.plot.setLabel("bottom", x_label)
+        self._draw_marks(scale, shaft)
+        zoom = options.spectrum_zoom_hz
+        if zoom is not None:
+            self.plot.setXRange(zoom[0] * scale, zoom[1] * scale, padding=0)
+        else:
+            self.plot.setXRange(float(x[0]), float(x[-1]), padding=0)
+        self.plot.enableAutoRange(axis="y")
+        if self.band_region.isVisible():
+            self._place_band_region()
+        band = getattr(analysis.envelope, "band_hz", None)
+        self.caption.setText("" if band is None else
+                             f"envelope band {band[0]:.0f} to {band[1]:.0f} Hz ({analysis.envelope.band_source})")
+
+    def _place_band_region(self) -> None:
+        band = self.session.settings.envelope_band_hz or getattr(self.analysis.envelope, "band_hz", None)
+        scale = self._scale_hz() or 1.0
+        if band is not None:
+            self._updating = True
+            self.band_region.setRegion((band[0] * scale, band[1] * scale))
+            self._updating = False
+
+    def _draw_marks(self, scale: float, shaft: str | None) -> None:
+        table = getattr(self.analysis, "frequencies", None)
+        meshes = [m for m in getattr(table, "meshes", ()) or () if shaft in (m.driver, m.driven)]
+        colour = theme.shaft_colour(self.analysis.model, shaft)
+        marks = [(f"{m.name} GMF×{h}" if h > 1 else f"{m.name} GMF", h * m.gmf_hz * scale)
+                 for m in meshes for h in range(1, N_GMF_HARMONICS + 1)]
+        for line, mark in zip(self.marks, marks + [None] * (N_MARKS - len(marks))):
+            if mark is None:
+                line.setVisible(False)
+                continue
+            line.setPen(pg.mkPen(colour, width=1, style=pg.QtCore.Qt.PenStyle.DashLine))
+            line.label.setFormat(mark[0])
+            line.setValue(mark[1])
+            line.setVisible(True)
+
+
+def _spin(prefix: str, suffix: str, lo: float, hi: float, value: float) -> QDoubleSpinBox:
+    spin = QDoubleSpinBox()
+    spin.setRange(lo, hi)
+    spin.setDecimals(1)
+    spin.setPrefix(prefix)
+    spin.setSuffix(suffix)
+    spin.setValue(value)
+    spin.setKeyboardTracking(False)
+    return spin
