@@ -3,10 +3,27 @@
 The window, the report and the command line all call this one function.  The
 result is a plain immutable bundle that carries the settings it was computed with,
 so anything shown can be regenerated.
+
+Steps (each reports progress and checks for cancellation):
+
+1. the sensor signal and the time range; signal quality (non-finite samples,
+   clipping, flat signal);
+2. the speed of the reference shaft: tach pulses and their profile, or, without a
+   tach channel, a speed estimated around the nominal speed;
+3. the frequency table of the model at the mean speed;
+4. ONE full-length rfft of the sensor signal, reused for the Hz spectrum, the
+   velocity spectrum and overall velocity, the zoom band, the envelope band and
+   the cepstrum;
+5. the order spectrum of the reference shaft;
+6. TSA of every shaft with residual and difference signals and indicators;
+7. the envelope band (kurtogram unless given), the squared-envelope spectrum and
+   the matches of bearing and shaft frequencies;
+8. sideband families and their owners; suspects.
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from typing import Any, Callable
 
@@ -35,6 +52,18 @@ class Settings:
 
 ProgressFn = Callable[[float, str], None]
 CancelFn = Callable[[], bool]
+
+SCHEMA = "gearbench.analysis/1"
+#: Fewer revolutions than this and a shaft's TSA is skipped (common practice, no source).
+MIN_TSA_REVS = 3
+#: Speed spread (max - min) / mean above which a warning is given (common practice, no source).
+SPEED_SPREAD_WARN = 0.10
+#: Non-finite samples above this fraction of the record make the analysis fail.
+MAX_NONFINITE_FRACTION = 0.05
+CAUTION = (
+    "Guidance for a qualified analyst: confirm every finding on the views, and defer to local codes, "
+    "the manufacturer's instructions and licensed practice."
+)
 
 
 @dataclass(frozen=True)
@@ -83,3 +112,561 @@ class Analysis:
             if item.shaft == shaft:
                 return item
         return None
+
+    def to_json_dict(self) -> dict[str, Any]:
+        """The ``gearbench analyze --json`` document (plain JSON types, no NaN).
+
+        Keys: ``schema, recording, speed, shafts, meshes, planetary, bearings,
+        overall, tsa, sidebands, envelope, suspects, warnings`` (see
+        ``design.md``), plus ``caution`` and ``settings``.
+        """
+        return _clean(_json_dict(self))
+
+
+# ---------------------------------------------------------------------------
+# helpers
+
+
+class _Steps:
+    """Progress reporting and cancellation between steps."""
+
+    def __init__(self, progress: ProgressFn | None, cancel: CancelFn | None):
+        self.progress = progress
+        self.cancel = cancel
+
+    def check(self) -> None:
+        if self.cancel is not None and self.cancel():
+            from .errors import Cancelled
+
+            raise Cancelled("analysis cancelled")
+
+    def __call__(self, fraction: float, text: str) -> None:
+        self.check()
+        if self.progress is not None:
+            self.progress(float(fraction), text)
+
+
+def _readonly(a: np.ndarray) -> np.ndarray:
+    a = np.asarray(a)
+    if a.flags.writeable and a.base is None:
+        a.setflags(write=False)
+    elif a.flags.writeable:
+        a = a.copy()
+        a.setflags(write=False)
+    return a
+
+
+def _time_range(settings: Settings, n_frames: int, fs: float) -> tuple[int, int]:
+    from .errors import AnalysisError
+
+    t0 = 0.0 if settings.t_start_s is None else float(settings.t_start_s)
+    t1 = n_frames / fs if settings.t_end_s is None else float(settings.t_end_s)
+    if not (math.isfinite(t0) and math.isfinite(t1)) or t0 < 0 or t1 <= t0:
+        raise AnalysisError(
+            f"time range {t0:g} s to {t1:g} s is empty or outside the recording (0 to {n_frames / fs:g} s); "
+            "give a start before the end, inside the recording"
+        )
+    i0 = int(round(t0 * fs))
+    i1 = min(n_frames, int(round(t1 * fs)))
+    if i1 - i0 < 64:
+        raise AnalysisError(
+            f"time range {t0:g} s to {t1:g} s holds {max(i1 - i0, 0)} samples; choose a longer range"
+        )
+    return i0, i1
+
+
+def _speed(recording, model, x: np.ndarray, i0: int, i1: int, fs: float, reference: str, warn: list[str]):
+    """Speed profile of the reference shaft (time 0 at sample ``i0``) and the tach pulses."""
+    from .errors import TachError
+    from .tach import detect_pulses, nominal_profile, speed_profile
+
+    tach = model.tach
+    duration = (i1 - i0) / fs
+    if tach.channel is not None:
+        tx = recording.channel(int(tach.channel))[i0:i1]
+        pulses = detect_pulses(tx, fs, pulses_per_rev=int(tach.pulses_per_rev or 1), edge=tach.edge or "rising")
+        if pulses.n_pulses < 3:
+            raise TachError(
+                f"the tach channel {tach.channel} gives {pulses.n_pulses} pulses in the range analysed; "
+                "check tach.channel and tach.pulses_per_rev, or analyse a longer range"
+            )
+        profile = speed_profile(pulses, reference)
+        if pulses.n_repaired or pulses.n_rejected:
+            warn.append(
+                f"tach repaired: {pulses.n_repaired} missing pulses inserted and {pulses.n_rejected} extra pulses "
+                f"removed out of {pulses.n_found} found; check the tach signal if these are many."
+            )
+        warn.extend(f"tach: {w}" for w in pulses.warnings)
+        return profile, pulses
+    rpm = tach.nominal_rpm
+    if rpm is None or not rpm > 0:
+        raise TachError(
+            "the model has neither a tach channel nor a nominal speed; give tach.channel or tach.nominal_rpm",
+        )
+    try:
+        from .speed_estimate import estimate_speed
+    except ImportError:  # pragma: no cover - module not yet available
+        estimate_speed = None
+    if estimate_speed is not None:
+        try:
+            profile = estimate_speed(x, fs, model, nominal_rpm=float(rpm), shaft=reference)
+            return profile, None
+        except TachError as exc:
+            warn.append(f"speed estimate failed ({exc}); the nominal speed {rpm:g} rpm is used as constant.")
+    profile = nominal_profile(float(rpm), duration, reference)
+    warn.append(
+        f"no tach channel: the nominal speed {rpm:g} rpm is assumed constant; orders and TSA are only as "
+        "good as that assumption."
+    )
+    return profile, None
+
+
+def _overall(x: np.ndarray, velocity_rms: float, quality) -> dict[str, Any]:
+    from . import indicators as ind
+
+    xd = np.asarray(x, dtype=np.float64)
+    return {
+        "rms": float(ind.rms(xd)),
+        "peak": float(ind.peak(xd)),
+        "crest_factor": float(ind.crest_factor(xd)),
+        "kurtosis": float(ind.kurtosis(xd)),
+        "velocity_rms_mm_s": float(velocity_rms),
+        "clipped": bool(quality.clipped),
+        "clipped_fraction": float(quality.clipped_fraction),
+    }
+
+
+def _shaft_tsa(x, fs, profile, name: str, order: float, table, model, settings: Settings) -> ShaftTSA:
+    """TSA of one shaft with residual, difference and indicators."""
+    from . import indicators as ind
+    from .kinematics import gears_on_shaft
+    from .tsa import difference_signal, regular_signal, residual_signal, tsa
+
+    gears = gears_on_shaft(model, name)
+    teeth = tuple((g.label, int(g.teeth)) for g in gears)
+    # a sun gear meshes at Z_s (f_sun - f_carrier): not synchronous with its own shaft
+    mesh_teeth = tuple(sorted({int(g.teeth) for g in gears if getattr(g, "role", "") != "sun"}))
+    res = tsa(x, fs, profile, shaft_order=order, shaft=name, samples_per_rev=settings.tsa_samples_per_rev)
+    avg = np.asarray(res.average)
+    spr = int(res.samples_per_rev)
+    kw = dict(mesh_teeth=mesh_teeth, n_harmonics=settings.n_mesh_harmonics) if mesh_teeth else None
+    if kw:
+        residual = np.asarray(residual_signal(avg, **kw))
+        difference = np.asarray(difference_signal(avg, **kw))
+        regular = np.asarray(regular_signal(avg, **kw))
+    else:  # a shaft with no gear (should not happen in a valid model): plain mean removal
+        residual = avg - avg.mean()
+        difference = residual
+        regular = np.zeros_like(avg)
+    with np.errstate(all="ignore"):
+        values = {
+            "rms": ind.rms(avg),
+            "kurtosis": ind.kurtosis(avg),
+            "fm0": ind.fm0(avg, [h * z for z in mesh_teeth for h in range(1, settings.n_mesh_harmonics + 1)],
+                           samples_per_rev=spr) if mesh_teeth else math.nan,
+            "fm4": ind.fm4(difference),
+            "na4": ind.na4(residual),
+            "m6a": ind.m6a(difference),
+            "m8a": ind.m8a(difference),
+            "er": ind.energy_ratio(difference, regular),
+        }
+    values = {k: float(v) for k, v in values.items()}
+    return ShaftTSA(
+        shaft=name,
+        shaft_hz=float(table.shaft_hz(name)),
+        shaft_order=float(order),
+        n_revs=int(res.n_revs),
+        samples_per_rev=spr,
+        angle_deg=_readonly(np.asarray(res.angle_deg)),
+        average=_readonly(avg),
+        residual=_readonly(residual),
+        difference=_readonly(difference),
+        teeth=teeth,
+        indicators=values,
+    )
+
+
+def _carriers(table, model):
+    """Mesh carriers and candidate shafts (spacings in reference orders) for the sideband search."""
+    from .sidebands import Carrier
+
+    orders = {s.name: s.order for s in table.shafts}
+    out = []
+    for m in table.meshes:
+        out.append(Carrier(m.name, m.gmf_order, ((m.driver, orders[m.driver]), (m.driven, orders[m.driven]))))
+    for p in table.planetary:
+        sun, car = p.sun_shaft, p.carrier_shaft
+        # sun gear turns relative to the carrier; the carrier shows through planet passing
+        rel = abs(orders[sun] - orders[car])
+        out.append(Carrier(p.name, p.mesh_hz / table.reference_hz, ((sun, rel), (car, orders[car]))))
+    return out
+
+
+def _envelope_targets(table):
+    from .suspects import EnvelopeTarget
+
+    targets = [EnvelopeTarget(f"shaft:{s.name}", "shaft rate", f"1x {s.name}", s.name, s.hz, None, 0.0)
+               for s in table.shafts]
+    for b in table.bearings:
+        comp = f"bearing:{b.name}"
+        targets += [
+            EnvelopeTarget(comp, "bearing outer race", "BPFO", b.shaft, b.bpfo_hz),
+            EnvelopeTarget(comp, "bearing inner race", "BPFI", b.shaft, b.bpfi_hz, b.shaft_hz),
+            EnvelopeTarget(comp, "bearing rolling element", "2xBSF", b.shaft, 2 * b.bsf_hz, b.ftf_hz),
+            EnvelopeTarget(comp, "bearing cage", "FTF", b.shaft, b.ftf_hz),
+        ]
+    return targets
+
+
+def _envelope_peaks(freq_hz, amplitude, matches, n_peaks: int = 10) -> list[dict[str, Any]]:
+    """The largest local maxima of the envelope spectrum, with any matching label."""
+    f = np.asarray(freq_hz, dtype=float)
+    a = np.asarray(amplitude, dtype=float)
+    if a.size < 3:
+        return []
+    inner = np.flatnonzero((a[1:-1] > a[:-2]) & (a[1:-1] >= a[2:])) + 1
+    inner = inner[f[inner] > 0]
+    top = inner[np.argsort(a[inner])[::-1][:n_peaks]]
+    df = f[1] - f[0]
+    labels = {}
+    for m in matches:
+        for h in m.hits:
+            if h.clear:
+                labels[round(h.found_hz / df)] = f"{h.harmonic}x {m.label} ({m.component})"
+    return [{"hz": float(f[i]), "amplitude": float(a[i]), "label": labels.get(int(i))} for i in sorted(top)]
+
+
+# ---------------------------------------------------------------------------
+# analyze
+
+
+def analyze(recording, model, settings: Settings = Settings(), progress: ProgressFn | None = None,
+            cancel: CancelFn | None = None) -> Analysis:
+    """Analyse one recording against its gear-train model.
+
+    Parameters
+    ----------
+    recording : dsp.recording.Recording
+        The recording (raw channels).
+    model : dsp.model.GearTrain
+        The gear-train model; its sensors, tach, shafts, meshes and bearings.
+    settings : Settings
+        Processing settings (sensor, time range, window, envelope band, ...).
+    progress : callable, optional
+        ``progress(fraction, text)`` called between steps, fraction 0..1.
+    cancel : callable, optional
+        ``cancel()`` returning True stops the analysis with
+        :class:`dsp.errors.Cancelled` at the next check.
+
+    Returns
+    -------
+    Analysis
+
+    Raises
+    ------
+    AnalysisError
+        The sensor index, the time range or the signal cannot be analysed
+        (flat, mostly non-finite).
+    TachError
+        Neither tach pulses nor a nominal speed give the speed.
+    Cancelled
+        ``cancel()`` returned True.
+
+    Notes
+    -----
+    Non-finite samples (up to 5 % of the range) are set to zero in a copy with
+    a warning; more make the analysis fail.  A shaft that turns fewer than 3
+    times in the range gets no TSA (warning); the other results stay.  The
+    suspects are an aid to the analyst's judgement, not a verdict.
+
+    References
+    ----------
+    .. [1] R. B. Randall, *Vibration-based Condition Monitoring*, Wiley, 2011
+       (the sequence: order tracking, TSA, envelope, cepstrum).
+    .. [2] R. B. Randall, J. Antoni, "Rolling element bearing diagnostics - A
+       tutorial", Mech. Syst. Signal Process. 25 (2011) 485-520.
+    """
+    from .errors import AnalysisError
+    from .kinematics import frequency_table, shaft_orders
+    from .recording import sensor_signal, signal_quality
+    from .spectrum import band_rms, rfft_full, spectrum_from_rfft, velocity_spectrum, zoom_spectrum
+
+    step = _Steps(progress, cancel)
+    warn: list[str] = []
+    step(0.0, "reading the sensor signal")
+    if not isinstance(settings, Settings):
+        raise AnalysisError(f"settings must be dsp.analysis.Settings, got {type(settings).__name__}")
+    if not model.sensors:
+        raise AnalysisError("the model has no sensor; add a [[sensors]] block naming the accelerometer channel")
+    if not 0 <= settings.sensor_index < len(model.sensors):
+        raise AnalysisError(
+            f"sensor index {settings.sensor_index} does not exist; the model has {len(model.sensors)} "
+            f"sensor(s) (0 to {len(model.sensors) - 1})"
+        )
+    sensor = model.sensors[settings.sensor_index]
+    fs = float(recording.sample_rate_hz)
+    i0, i1 = _time_range(settings, recording.n_frames, fs)
+    x = sensor_signal(recording, sensor)[i0:i1]
+
+    # --- signal quality ---------------------------------------------------
+    quality = signal_quality(x)
+    if quality.n_nonfinite:
+        frac = quality.n_nonfinite / x.size
+        if frac > MAX_NONFINITE_FRACTION:
+            raise AnalysisError(
+                f"{quality.n_nonfinite} of {x.size} samples of sensor {sensor.name!r} are NaN or infinite "
+                f"({100 * frac:.1f} %); repair the file or analyse a time range without them"
+            )
+        x = np.where(np.isfinite(x), x, np.float32(0)).astype(np.float32)
+        warn.append(
+            f"{quality.n_nonfinite} samples of sensor {sensor.name!r} are NaN or infinite; they were set to 0 "
+            "for this analysis, and results near them are unreliable."
+        )
+    if quality.flat:
+        raise AnalysisError(
+            f"sensor {sensor.name!r} (channel {sensor.channel}) is flat over the range analysed; "
+            "check the channel number and the sensor cable"
+        )
+    if quality.clipped:
+        warn.append(
+            f"clipping invalidates kurtosis, crest factor and FM4: {100 * quality.clipped_fraction:.2f} % of the "
+            f"samples of sensor {sensor.name!r} sit at the rail; re-record with a larger range if you can."
+        )
+
+    # --- speed ------------------------------------------------------------
+    step(0.05, "speed of the reference shaft")
+    reference = model.tach.shaft or model.shafts[0].name
+    profile, pulses = _speed(recording, model, x, i0, i1, fs, reference, warn)
+    spread = (profile.max_hz - profile.min_hz) / profile.mean_hz if profile.mean_hz > 0 else 0.0
+    if spread > SPEED_SPREAD_WARN:
+        warn.append(
+            f"speed spread too large for Hz spectra: the reference shaft ran from {60 * profile.min_hz:.0f} to "
+            f"{60 * profile.max_hz:.0f} rpm ({100 * spread:.0f} %); trust the order spectrum and TSA, "
+            "not the Hz spectrum."
+        )
+    table = frequency_table(model, float(profile.mean_hz), reference)
+    orders = {k: abs(float(v)) for k, v in shaft_orders(model, reference).items()}
+
+    # Nyquist check for the mesh harmonics asked for
+    nyq = fs / 2.0
+    top = [(m.name, m.gmf_hz) for m in table.meshes] + [(p.name, p.mesh_hz) for p in table.planetary]
+    for name, gmf in top:
+        h_max = int(nyq // (gmf * (1 + spread / 2))) if gmf > 0 else settings.n_mesh_harmonics
+        if h_max < settings.n_mesh_harmonics:
+            warn.append(
+                f"sample rate too low for the mesh harmonics asked for: {fs:g} Hz reaches harmonic {h_max} of "
+                f"{name} ({gmf:.1f} Hz), not {settings.n_mesh_harmonics}; record faster or ask for fewer harmonics."
+            )
+
+    # --- one full rfft ----------------------------------------------------
+    step(0.12, "spectrum")
+    full = rfft_full(x, fs)
+    spectrum = spectrum_from_rfft(full, window=settings.window, scaling=settings.spectrum_scaling, units=sensor.units)
+    vel = velocity_spectrum(spectrum, units=sensor.units if sensor.units in ("g", "m/s2") else "g",
+                            cutoff_hz=max(2.0, 0.5 * settings.velocity_band_hz[0]))
+    lo, hi = settings.velocity_band_hz
+    velocity_rms = band_rms(vel, lo, min(hi, nyq))
+    overall = _overall(x, velocity_rms, quality)
+    zoom = None
+    if top:
+        name, gmf = top[0]
+        span = max(8 * max(table.shafts[i].hz for i in range(len(table.shafts))), 20 * full.resolution_hz)
+        if gmf < nyq:
+            zoom = zoom_spectrum(full, None, gmf, span, window=settings.window, scaling=settings.spectrum_scaling,
+                                 units=sensor.units)
+
+    # --- order spectrum ---------------------------------------------------
+    step(0.2, "order spectrum")
+    from .orders import order_spectrum
+
+    max_gmf_order = max([m.gmf_order for m in table.meshes] + [p.mesh_hz / table.reference_hz for p in table.planetary]
+                        + [1.0])
+    max_order = settings.max_order
+    if max_order is None:
+        max_order = (settings.n_mesh_harmonics + 0.5) * max_gmf_order
+    max_order = float(min(max_order, 0.45 * fs / profile.max_hz))
+    ospec = order_spectrum(x, fs, profile, max_order=max_order)
+
+    # --- TSA per shaft ----------------------------------------------------
+    tsas: list[ShaftTSA] = []
+    names = [s.name for s in model.shafts]
+    for k, name in enumerate(names):
+        step(0.3 + 0.3 * k / max(len(names), 1), f"TSA of shaft {name}")
+        n_revs = profile.n_revs * orders[name] if profile.n_revs else (i1 - i0) / fs * table.shaft_hz(name)
+        revs_in_range = (i1 - i0) / fs * table.shaft_hz(name)
+        if min(n_revs, revs_in_range) < MIN_TSA_REVS:
+            warn.append(
+                f"short record: shaft {name} turns {revs_in_range:.1f} times in the range analysed, fewer than "
+                f"{MIN_TSA_REVS}; its TSA is skipped (analyse a longer record)."
+            )
+            continue
+        tsas.append(_shaft_tsa(x, fs, profile, name, orders[name], table, model, settings))
+
+    # --- envelope ---------------------------------------------------------
+    step(0.62, "envelope")
+    from .envelope import envelope_spectrum, fast_kurtogram
+
+    kurt = None
+    if settings.envelope_band_hz is not None:
+        band = tuple(float(v) for v in settings.envelope_band_hz)
+        band_source = "user"
+    else:
+        kurt = fast_kurtogram(x, fs, max_level=settings.kurtogram_max_level)
+        band = tuple(float(v) for v in kurt.best_band_hz)
+        band_source = "kurtogram"
+    env = envelope_spectrum(full, fs, band, band_source=band_source)
+    from .suspects import match_envelope, rank_suspects, score_components
+
+    matches = match_envelope(env.freq_hz, env.amplitude, _envelope_targets(table))
+
+    # --- cepstrum ---------------------------------------------------------
+    step(0.75, "cepstrum")
+    from .cepstrum import cepstrum_from_rfft, rahmonic_strength
+
+    ceps = cepstrum_from_rfft(full)
+    ceps_support = {}
+    for s in table.shafts:
+        try:
+            ceps_support[s.name] = float(rahmonic_strength(ceps, 1.0 / s.hz))
+        except Exception:  # noqa: BLE001 - a rahmonic outside the cepstrum gives no support
+            ceps_support[s.name] = float("nan")
+
+    # --- sidebands and suspects ---------------------------------------------
+    step(0.85, "sideband families")
+    from .sidebands import measure_sidebands
+
+    rel_err = 0.0 if profile.source == "tach" else (0.005 if profile.source == "estimated" else 0.02)
+    fams = measure_sidebands(
+        np.asarray(ospec.order), np.asarray(ospec.amplitude), _carriers(table, model),
+        reference_hz=table.reference_hz, n_mesh_harmonics=settings.n_mesh_harmonics,
+        n_sideband_orders=settings.n_sideband_orders, relative_speed_error=rel_err,
+        tsa_std={t.shaft: t.indicators.get("rms", math.nan) for t in tsas},
+        cepstrum_support={k: v for k, v in ceps_support.items() if np.isfinite(v)},
+    )
+    step(0.95, "suspects")
+    support = {k: v for k, v in ceps_support.items() if np.isfinite(v)}
+    suspects = rank_suspects(tsas, fams, matches, threshold=settings.alarm_threshold, cepstrum_support=support)
+    all_scores = score_components(tsas, fams, matches, cepstrum_support=support)
+    step(1.0, "done")
+
+    rec = {
+        "path": recording.path,
+        "sha256": recording.sha256,
+        "sample_rate_hz": fs,
+        "duration_s": float(recording.duration_s),
+        "channels": int(recording.n_channels),
+        "sensor": {"name": sensor.name, "channel": int(sensor.channel), "units": sensor.units},
+        "t_start_s": i0 / fs,
+        "t_end_s": i1 / fs,
+    }
+    return Analysis(
+        settings=settings,
+        model=model,
+        recording=rec,
+        frequencies=table,
+        speed=profile,
+        tach=pulses,
+        spectrum=spectrum,
+        velocity_spectrum=vel,
+        order_spectrum=ospec,
+        tsa=tuple(tsas),
+        envelope=env,
+        kurtogram=kurt,
+        cepstrum=ceps,
+        overall=overall,
+        sidebands=tuple(fams),
+        envelope_matches=tuple(matches),
+        suspects=tuple(suspects),
+        warnings=tuple(warn),
+        extras={
+            "zoom": zoom,
+            "quality": quality,
+            "cepstrum_support": ceps_support,
+            "all_scores": all_scores,
+            "full_rfft": full,
+            "speed_spread": spread,
+        },
+    )
+
+
+# ---------------------------------------------------------------------------
+# JSON
+
+
+def _clean(obj):
+    """Plain JSON types; NaN and infinities become None."""
+    if isinstance(obj, dict):
+        return {str(k): _clean(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_clean(v) for v in obj]
+    if isinstance(obj, (bool, np.bool_)):
+        return bool(obj)
+    if isinstance(obj, (int, np.integer)):
+        return int(obj)
+    if isinstance(obj, (float, np.floating)):
+        v = float(obj)
+        return v if math.isfinite(v) else None
+    if isinstance(obj, np.ndarray):
+        return _clean(obj.tolist())
+    if obj is None or isinstance(obj, str):
+        return obj
+    return str(obj)
+
+
+def _json_dict(a: Analysis) -> dict[str, Any]:
+    freq = a.frequencies.to_json_dict()
+    sp = a.speed
+    env = a.envelope
+    return {
+        "schema": SCHEMA,
+        "recording": dict(a.recording),
+        "speed": {
+            "source": sp.source,
+            "reference_shaft": sp.shaft,
+            "mean_hz": sp.mean_hz,
+            "min_hz": sp.min_hz,
+            "max_hz": sp.max_hz,
+            "mean_rpm": 60.0 * sp.mean_hz,
+            "n_revs": sp.n_revs,
+            "tach": a.tach.to_json_dict() if a.tach is not None else None,
+        },
+        "shafts": freq["shafts"],
+        "meshes": freq["meshes"],
+        "planetary": freq["planetary"],
+        "bearings": freq["bearings"],
+        "overall": dict(a.overall, units=a.recording["sensor"]["units"],
+                        velocity_band_hz=list(a.settings.velocity_band_hz)),
+        "tsa": [
+            {"shaft": t.shaft, "averages": t.n_revs, "shaft_hz": t.shaft_hz, "samples_per_rev": t.samples_per_rev,
+             **{k: t.indicators.get(k) for k in ("rms", "kurtosis", "fm0", "fm4", "na4", "m6a", "m8a", "er")}}
+            for t in a.tsa
+        ],
+        "sidebands": [
+            {"mesh": f.mesh, "harmonic": f.harmonic, "carrier_hz": f.carrier_hz, "carrier_order": f.carrier_order,
+             "owner_shaft": f.owner_shaft, "spacing_hz": f.spacing_hz, "spacing_order": f.spacing_order,
+             "n_found": f.n_found, "sideband_index": f.sideband_index,
+             "sideband_level_factor": f.sideband_level_factor, "candidates": f.candidates,
+             "evidence": list(f.evidence)}
+            for f in a.sidebands
+        ],
+        "envelope": {
+            "band_hz": [float(v) for v in env.band_hz],
+            "band_source": env.band_source,
+            "peaks": _envelope_peaks(env.freq_hz, env.amplitude, a.envelope_matches),
+            "matches": [
+                {"component": m.component, "kind": m.kind, "label": m.label, "shaft": m.shaft,
+                 "expected_hz": m.expected_hz, "n_clear": m.n_clear,
+                 "found_hz": [h.found_hz for h in m.hits if h.clear and h.coincides_with is None],
+                 "evidence": list(m.evidence)}
+                for m in a.envelope_matches if m.found
+            ],
+        },
+        "suspects": [
+            {"component": s.component, "kind": s.kind, "score": s.score, "evidence": list(s.evidence),
+             "view": s.view, "shaft": s.shaft}
+            for s in a.suspects
+        ],
+        "warnings": list(a.warnings),
+        "caution": CAUTION,
+        "settings": {k: (list(v) if isinstance(v, tuple) else v) for k, v in a.settings.__dict__.items()},
+    }

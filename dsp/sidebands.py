@@ -20,8 +20,9 @@ The measurement, per mesh harmonic and per candidate shaft:
 3. the local noise floor: the median of the order spectrum over the
    neighbourhood of the family (the lines are a small share of that band,
    so the median ignores them);
-4. how many sidebands stand clear of the floor (``clear_db``, 6 dB by default,
-   common practice, no source);
+4. how many sidebands stand clear of the floor: at least ``clear_db`` (6 dB,
+   common practice, no source) and at least the level that noise alone passes
+   with 1 % probability in the window searched (:func:`detection_threshold_db`);
 5. a score per candidate, from 0 to 1: each sideband position scores 0 at
    ``clear_db`` above the floor rising to 1 at 20 dB more; positions that
    coincide with a line of another candidate or of another mesh count half,
@@ -65,6 +66,40 @@ STRONG_SPAN_DB = 20.0
 #: practice, no source).
 MIN_OWNER_SCORE = 0.1
 MIN_OWNER_SIDEBANDS = 2
+#: False-alarm probability per search window of the adaptive threshold
+#: (see :func:`detection_threshold_db`).
+FALSE_ALARM = 0.01
+
+
+def detection_threshold_db(n_bins: int, false_alarm: float = FALSE_ALARM, minimum_db: float = CLEAR_DB) -> float:
+    """Level above the median floor that noise alone exceeds with probability ``false_alarm``.
+
+    The amplitude of a noise-only spectral line is Rayleigh distributed, so
+    ``P(A > t * median) = 2 ** (-t**2)`` for one line and, for the largest of
+    ``n_bins`` independent lines, about ``n_bins * 2 ** (-t**2)``.  Solving for
+    ``t`` gives ``t**2 = log2(n_bins / false_alarm)``.
+
+    Parameters
+    ----------
+    n_bins : int
+        Number of lines searched for the peak.
+    false_alarm : float
+        Allowed probability that noise alone passes.
+    minimum_db : float
+        Lower bound of the threshold (dB).
+
+    Returns
+    -------
+    float
+        Threshold in dB above the median.
+
+    References
+    ----------
+    .. [1] S. M. Kay, *Fundamentals of Statistical Signal Processing, Vol. II:
+       Detection Theory*, Prentice Hall, 1998 (Rayleigh envelope of Gaussian noise).
+    """
+    t2 = math.log2(max(n_bins, 1) / false_alarm)
+    return max(minimum_db, 10.0 * math.log10(t2))
 
 
 @dataclass(frozen=True)
@@ -124,15 +159,15 @@ class SidebandFamily:
         return float(np.mean(self.amplitudes[:, 0]) / self.carrier_amplitude)
 
 
-def _window_max(order: np.ndarray, amplitude: np.ndarray, center: float, tol: float) -> tuple[float, float]:
-    """Largest line within ``center +- tol``: (amplitude, order)."""
+def _window_max(order: np.ndarray, amplitude: np.ndarray, center: float, tol: float) -> tuple[float, float, int]:
+    """Largest line within ``center +- tol``: (amplitude, order, lines searched)."""
     lo = int(np.searchsorted(order, center - tol, side="left"))
     hi = int(np.searchsorted(order, center + tol, side="right"))
     if hi <= lo:
         i = int(np.clip(np.searchsorted(order, center), 0, order.size - 1))
-        return float(amplitude[i]), float(order[i])
+        return float(amplitude[i]), float(order[i]), 1
     j = lo + int(np.argmax(amplitude[lo:hi]))
-    return float(amplitude[j]), float(order[j])
+    return float(amplitude[j]), float(order[j]), hi - lo
 
 
 def _strength(level: float, floor: float, clear_db: float) -> float:
@@ -159,6 +194,7 @@ def measure_sidebands(
     n_sideband_orders: int = 3,
     relative_speed_error: float = 0.0,
     clear_db: float = CLEAR_DB,
+    false_alarm: float = FALSE_ALARM,
     min_owner_score: float = MIN_OWNER_SCORE,
     tsa_std: Mapping[str, float] | None = None,
     cepstrum_support: Mapping[str, float] | None = None,
@@ -185,7 +221,12 @@ def measure_sidebands(
         tach; the speed spread when a constant speed was assumed).  Widens the
         search tolerance to ``relative_speed_error * order``.
     clear_db : float
-        A sideband counts when it stands this many dB above the local floor.
+        A sideband counts when it stands this many dB above the local floor,
+        or more when the search window is wide (see ``false_alarm``).
+    false_alarm : float
+        Probability that noise alone passes the threshold in one search window;
+        the threshold is :func:`detection_threshold_db` of the window's lines,
+        at least ``clear_db``.
     min_owner_score : float
         Smallest best score (0..1) for which an owner is named.
     tsa_std : mapping of str to float, optional
@@ -243,7 +284,7 @@ def measure_sidebands(
             if c_order + (K + 1) * max_sp > order[-1]:
                 break
             tol_c = tolerance(c_order)
-            carrier_amp, _ = _window_max(order, amplitude, c_order, tol_c)
+            carrier_amp, _, n_c = _window_max(order, amplitude, c_order, tol_c)
             # local floor: median over the neighbourhood of the widest family
             half = max((K + 1) * max_sp, 40 * d_order)
             lo = int(np.searchsorted(order, c_order - half))
@@ -282,10 +323,11 @@ def measure_sidebands(
                 for k in range(1, K + 1):
                     for side, sign in ((0, -1.0), (1, 1.0)):
                         target = c_order + sign * k * sp
-                        level, _ = _window_max(order, amplitude, target, tol)
+                        level, _, n_bins = _window_max(order, amplitude, target, tol)
                         a[side, k - 1] = level
-                        s = _strength(level, floor, clear_db)
-                        if _db(level, floor) >= clear_db:
+                        thr = detection_threshold_db(n_bins, false_alarm, clear_db)
+                        s = _strength(level, floor, thr)
+                        if _db(level, floor) >= thr:
                             count += 1
                         shared = any(abs(target - fo) <= tol + ft for fo, ft in foreign)
                         total += 0.5 * s if shared else s
@@ -297,7 +339,7 @@ def measure_sidebands(
                 n_clear[name] = count
                 amps[name] = a
             best = max(scores, key=lambda n: scores[n])
-            carrier_clear = _db(carrier_amp, floor) >= clear_db
+            carrier_clear = _db(carrier_amp, floor) >= detection_threshold_db(n_c, false_alarm, clear_db)
             owner = (
                 best
                 if scores[best] >= min_owner_score and n_clear[best] >= MIN_OWNER_SIDEBANDS and carrier_clear
@@ -322,8 +364,8 @@ def measure_sidebands(
                     continue
                 evidence.append(
                     f"spacing {sp:.4f} orders ({sp * reference_hz:.2f} Hz, shaft {name}): "
-                    f"{n_clear[name]} of {2 * K} sidebands stand {clear_db:.0f} dB or more above "
-                    f"the floor; first pair {_db(amps[name][0, 0], floor):.1f} / "
+                    f"{n_clear[name]} of {2 * K} sidebands stand clear of the floor "
+                    f"(at least {detection_threshold_db(3, false_alarm, clear_db):.0f} dB); first pair {_db(amps[name][0, 0], floor):.1f} / "
                     f"{_db(amps[name][1, 0], floor):.1f} dB; score {scores[name]:.2f}."
                 )
             if owner:

@@ -42,6 +42,8 @@ from typing import Iterable, Mapping, Sequence
 
 import numpy as np
 
+from .sidebands import detection_threshold_db
+
 CAUTION = (
     "This ranking is an aid to the analyst's judgement, not a verdict: confirm it "
     "on the views and defer to local codes, the manufacturer's instructions and licensed practice."
@@ -90,37 +92,6 @@ def ramp(x: float, lo: float, hi: float) -> float:
     if x is None or not np.isfinite(x):
         return 0.0
     return float(np.clip((x - lo) / (hi - lo), 0.0, 1.0))
-
-
-def detection_threshold_db(n_bins: int, false_alarm: float = FALSE_ALARM, minimum_db: float = 6.0) -> float:
-    """Level above the median floor that noise alone exceeds with probability ``false_alarm``.
-
-    The amplitude of a noise-only spectral line is Rayleigh distributed, so
-    ``P(A > t * median) = 2 ** (-t**2)`` for one line and, for the largest of
-    ``n_bins`` independent lines, about ``n_bins * 2 ** (-t**2)``.  Solving for
-    ``t`` gives ``t**2 = log2(n_bins / false_alarm)``.
-
-    Parameters
-    ----------
-    n_bins : int
-        Number of lines searched for the peak.
-    false_alarm : float
-        Allowed probability that noise alone passes.
-    minimum_db : float
-        Lower bound of the threshold (dB).
-
-    Returns
-    -------
-    float
-        Threshold in dB above the median.
-
-    References
-    ----------
-    .. [1] S. M. Kay, *Fundamentals of Statistical Signal Processing, Vol. II:
-       Detection Theory*, Prentice Hall, 1998 (Rayleigh envelope of Gaussian noise).
-    """
-    t2 = math.log2(max(n_bins, 1) / false_alarm)
-    return max(minimum_db, 10.0 * math.log10(t2))
 
 
 # --- envelope matches -------------------------------------------------------------
