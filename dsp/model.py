@@ -118,9 +118,8 @@ SECTIONS: dict[str, type] = {
 
 
 # ---------------------------------------------------------------------------
-# Field descriptions: which keys each table holds, which are required, and
-# what kind of value each must be.  One table drives parsing, dumping and
-# validation, so the three cannot drift apart.
+# Field descriptions come from the dataclasses themselves (names, defaults),
+# so parsing, dumping and the unknown-key check cannot drift apart.
 # ---------------------------------------------------------------------------
 
 _MISSING = object()
