@@ -14,6 +14,7 @@ Only light imports here (no scipy): the ``frequencies`` command must start fast.
 from __future__ import annotations
 
 import math
+import numbers
 from collections import deque
 from dataclasses import dataclass
 from typing import Any, Iterable
@@ -567,7 +568,7 @@ def frequency_table(train: GearTrain, reference_hz: float,
        diagnostics - A tutorial", Mech. Syst. Signal Process. 25(2), 485-520, 2011.
     .. [3] Z. Feng and M. J. Zuo, J. Sound Vib. 331(22), 4919-4939, 2012.
     """
-    if isinstance(reference_hz, bool) or not isinstance(reference_hz, (int, float)) \
+    if isinstance(reference_hz, bool) or not isinstance(reference_hz, numbers.Real) \
             or not math.isfinite(reference_hz) or reference_hz <= 0:
         raise AnalysisError(f"the reference speed must be a positive finite number of Hz, got {reference_hz!r}")
     reference_hz = float(reference_hz)

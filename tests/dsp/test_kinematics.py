@@ -286,7 +286,10 @@ def test_errors_for_bad_reference_and_invalid_model():
     train = pair(40, 15)
     with pytest.raises(ModelError, match="unknown reference shaft 'nope'"):
         frequency_table(train, 50.0, "nope")
-    for bad in (0.0, -1.0, math.nan, math.inf):
+    # numpy scalars (a mean speed from a profile) are accepted and give plain floats
+    t32 = frequency_table(train, np.float32(50.0))
+    assert type(t32.reference_hz) is float and t32.meshes[0].gmf_hz == pytest.approx(2000.0)
+    for bad in (0.0, -1.0, math.nan, math.inf, "50", True):
         with pytest.raises(AnalysisError, match="positive finite"):
             frequency_table(train, bad)
     broken = dataclasses.replace(train, meshes=(Mesh("pair", "in", 19.5, "out", 15),))
