@@ -464,7 +464,7 @@ def validate(train: GearTrain, *, n_channels: int | None = None) -> list[Problem
         if not c.text(path, value):
             return False
         if value not in known:
-            hint = f"one of {', '.join(repr(n) for n in shaft_names)}" if shaft_names else "add it under [[shafts]]"
+            hint = f"one of {', '.join(repr(n) for n in dict.fromkeys(shaft_names))}" if shaft_names else "add it under [[shafts]]"
             c.add(path, f"refers to unknown shaft {value!r}; use {hint}")
             return False
         return True
