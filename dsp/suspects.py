@@ -168,6 +168,24 @@ def _floor_at(freq_hz: np.ndarray, amplitude: np.ndarray, f_hz: float, df: float
     return float(np.median(seg)) if seg.size else float("nan")
 
 
+def _consistent_harmonics(hits: Sequence[HarmonicHit], df: float) -> int:
+    """Clear harmonics that line up with a clear fundamental.
+
+    A family counts only when its fundamental stands clear; harmonic ``h`` then
+    counts when it is clear and lies within 1 % (at least 1.5 lines) of
+    ``h`` times the fundamental found, so that the lines share one slip.
+    """
+    if not hits or not (hits[0].clear and hits[0].coincides_with is None):
+        return 0
+    base = hits[0].found_hz
+    n = 0
+    for h in hits:
+        if h.clear and h.coincides_with is None and abs(h.found_hz - h.harmonic * base) <= max(
+                1.5 * df, 0.01 * h.harmonic * base):
+            n += 1
+    return n
+
+
 def match_envelope(
     freq_hz: np.ndarray,
     amplitude: np.ndarray,
@@ -203,7 +221,11 @@ def match_envelope(
     -----
     Harmonic ``h`` of a bearing frequency ``f`` is searched within
     ``h * f * (1 +- slip)`` (slip 2 %, Randall & Antoni 2011 [1]_), at least
-    +-1.5 lines; a shaft harmonic within +-1.5 lines.  The floor is the median
+    +-1.5 lines; a shaft harmonic within +-1.5 lines.  A line is clear when it
+    passes :func:`dsp.sidebands.detection_threshold_db` for the window searched.
+    A family counts only when its fundamental is clear, and its harmonics only
+    when they line up with the fundamental found (one common slip), so that a
+    high harmonic of one bearing frequency is not taken for another family.  The floor is the median
     of the spectrum over +-10 % around the line (at least 40 lines).
 
     References
@@ -251,7 +273,7 @@ def match_envelope(
                         break
             hits.append(HarmonicHit(h, hit.expected_hz, hit.found_hz, hit.amplitude, hit.floor,
                                     hit.excess_db, hit.threshold_db, hit.clear, coincide))
-        n_clear = sum(1 for h in hits if h.clear and h.coincides_with is None)
+        n_clear = _consistent_harmonics(hits, df)
         n_sb = 0
         if t.sideband_hz and t.sideband_hz > 0:
             for h in hits:
