@@ -126,6 +126,10 @@ class MainWindow(QMainWindow):
         self._painted = False
         self.resize(1600, 1000)
 
+    def showEvent(self, event):  # noqa: N802 - Qt override
+        super().showEvent(event)
+        self.resizeDocks(list(self._docks), [410, 380], Qt.Orientation.Horizontal)
+
     def paintEvent(self, event):  # noqa: N802 - Qt override
         super().paintEvent(event)
         if not self._painted:
@@ -188,7 +192,7 @@ class MainWindow(QMainWindow):
         right.setWidget(self.results)
         right.setFeatures(left.features())
         self.addDockWidget(Qt.DockWidgetArea.RightDockWidgetArea, right)
-        self.resizeDocks([left, right], [430, 400], Qt.Orientation.Horizontal)
+        self._docks = (left, right)
 
     def _build_status(self) -> None:
         bar = self.statusBar()

@@ -68,3 +68,4 @@ def style_plot(plot_item, *, x_label: str = "", y_label: str = "", title: str | 
         axis.setTextPen(FOREGROUND)
         axis.setPen(FOREGROUND)
     plot_item.getAxis("left").setWidth(64)
+    plot_item.getAxis("left").enableAutoSIPrefix(False)

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 import pyqtgraph as pg
-from PySide6.QtWidgets import QCheckBox, QComboBox, QDoubleSpinBox, QLabel, QPushButton
+from PySide6.QtWidgets import QCheckBox, QComboBox, QDoubleSpinBox, QHBoxLayout, QLabel, QPushButton
 
 from workbench import theme
 from workbench.views.base import AnalysisView, convert_acceleration, positive_for_log
@@ -48,18 +48,27 @@ class SpectrumView(AnalysisView):
         for text, widget in (("x axis", self.x_combo), ("amplitude", self.y_combo)):
             self.controls.addWidget(QLabel(text))
             self.controls.addWidget(widget)
-        for widget in (self.log_box, self.centre_spin, self.span_spin, zoom, full, self.band_button, self.auto_band):
+        for widget in (self.log_box, self.centre_spin, self.span_spin, zoom, full):
             self.controls.addWidget(widget)
-        self.finish_controls()
+        self.controls.addStretch(1)
+        row = QHBoxLayout()
+        row.setSpacing(8)
+        row.addWidget(self.band_button)
+        row.addWidget(self.auto_band)
+        row.addStretch(1)
+        row.addWidget(self.caption)
+        self._layout.addLayout(row)
         self.plot = self.add_plot(x_label="frequency (Hz)", y_label="amplitude")
         self.curve = self.plot.plot(pen=pg.mkPen(theme.CURVE, width=1))
         self.curve.setClipToView(True)
         self.curve.setDownsampling(auto=True, method="peak")
         self.marks = []
-        for _ in range(N_MARKS):
+        for i in range(N_MARKS):
+            # labels staggered in height so marks close together stay readable
             line = pg.InfiniteLine(angle=90, movable=False, pen=pg.mkPen(theme.SHAFT_COLOURS[0], width=1,
                                                                          style=pg.QtCore.Qt.PenStyle.DashLine),
-                                   label="", labelOpts={"position": 0.93, "color": theme.FOREGROUND})
+                                   label="", labelOpts={"position": 0.95 - 0.05 * (i % N_GMF_HARMONICS),
+                                                        "color": theme.FOREGROUND, "fill": (255, 255, 255, 200)})
             line.setVisible(False)
             self.plot.addItem(line, ignoreBounds=True)
             self.marks.append(line)
@@ -195,7 +204,7 @@ class SpectrumView(AnalysisView):
         colour = theme.shaft_colour(self.analysis.model, shaft)
         marks = [(f"{m.name} GMF×{h}" if h > 1 else f"{m.name} GMF", h * m.gmf_hz * scale)
                  for m in meshes for h in range(1, N_GMF_HARMONICS + 1)]
-        for line, mark in zip(self.marks, marks + [None] * (N_MARKS - len(marks))):
+        for i, (line, mark) in enumerate(zip(self.marks, marks + [None] * (N_MARKS - len(marks)))):
             if mark is None:
                 line.setVisible(False)
                 continue

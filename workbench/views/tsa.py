@@ -8,6 +8,8 @@ signal or the difference signal (definitions in ``dsp.tsa``).
 
 from __future__ import annotations
 
+import html
+
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtWidgets import QComboBox, QLabel
@@ -40,7 +42,7 @@ class TsaView(AnalysisView):
         for _ in range(MAX_GEARS):
             item = pg.PlotDataItem(connect="pairs")
             self.plot.addItem(item)
-            label = pg.TextItem(anchor=(0, 0.5))
+            label = pg.TextItem(anchor=(0, 1))
             self.plot.addItem(label, ignoreBounds=True)
             self.tick_items.append(item)
             self.tick_labels.append(label)
@@ -105,9 +107,12 @@ class TsaView(AnalysisView):
             top = lo - 0.05 * span - i * row
             x, yy = tick_segments(positions, top, top - 0.6 * row)
             tick_item.setData(x, yy, pen=pg.mkPen(colours[i], width=1))
-            label.setText(f"{name}: {teeth} teeth", color=colours[i])
-            label.setPos(361, top - 0.3 * row)
+            label.setText(f"{teeth} teeth", color=colours[i])
+            label.setPos(362, top + 0.15 * row)
         bottom = lo - 0.05 * span - max(len(ticks), 1) * row
         self.plot.setYRange(bottom, hi + 0.05 * span, padding=0)
-        self.plot.setXRange(0, 360 + (60 if ticks else 0), padding=0.01)
-        self.caption.setText(f"{shaft}: {item.n_revs} revolutions averaged, {item.samples_per_rev} samples per revolution")
+        self.plot.setXRange(0, 360 + (55 if ticks else 0), padding=0.01)
+        gears = ", ".join(f"<span style='color:{c}'>&#9646; {html.escape(str(name))} ({teeth} teeth)</span>"
+                          for (name, teeth, _), c in zip(ticks, colours))
+        self.caption.setText(f"{html.escape(str(shaft))}: <b>{item.n_revs} revolutions averaged</b>, "
+                             f"{item.samples_per_rev} samples per revolution" + (f"; tooth ticks: {gears}" if gears else ""))
