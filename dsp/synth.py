@@ -206,7 +206,7 @@ _PATH = ((1800.0, 0.05, 0.6), (4300.0, 0.04, 0.4))   # (Hz, damping ratio, gain)
 # severity -> parameters
 _TOOTH = {  # AM dip, PM (rad), window sigma (tooth pitches), impact peak (g)
     "mild": (0.10, 0.06, 0.6, 0.03),
-    "severe": (0.6, 0.5, 0.8, 1.4),
+    "severe": (0.8, 0.6, 1.0, 1.4),
 }
 _WEAR = {  # gain of harmonics >= 2, random AM std, random PM std (rad)
     "mild": (2.0, 0.08, 0.05),
