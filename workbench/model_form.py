@@ -35,7 +35,7 @@ from .model_form_fields import (
 )
 from .model_form_freq import FrequencyTablePanel, FrequencyTableView
 from .model_form_tables import ElementTable
-from .model_form_widgets import FoldingSection, TachEditor, mark_widget
+from .model_form_widgets import FoldingSection, TachEditor, WidgetMarks
 
 __all__ = ["ModelForm", "FrequencyTableView", "FrequencyTablePanel"]
 
@@ -81,6 +81,8 @@ class ModelForm(QWidget):
         self._timer.setSingleShot(True)
         self._timer.setInterval(SETTLE_MS)
         self._timer.timeout.connect(self.settle_now)
+        self._widget_marks = WidgetMarks()
+        self._listed: list[Problem] | None = None
         self._build()
         self.set_model(None)
 
@@ -325,7 +327,9 @@ class ModelForm(QWidget):
         problems = merge_problems(typing, self._check(draft)) if not self._pristine else []
         self._problems = problems
         self._show_problems(problems)
-        self.hint_label.setVisible(not (draft.sensors and draft.shafts and draft.meshes))
+        show_hint = not (draft.sensors and draft.shafts and (draft.meshes or draft.planetary))
+        if show_hint != self.hint_label.isVisibleTo(self):
+            self.hint_label.setVisible(show_hint)
         self.problems_changed.emit(list(problems))
         if self._pristine or _has_errors(problems):
             self._was_valid = False
@@ -344,14 +348,19 @@ class ModelForm(QWidget):
         table_marks: dict[str, dict] = {k: {} for k in self.tables}
         widget_marks: dict[str, list[tuple[str, str]]] = {}
         section_counts: dict[str, int] = {}
-        self.problem_list.clear()
+        if problems != self._listed:      # rebuild the list only when it changes
+            self._listed = list(problems)
+            self.problem_list.clear()
+            for p in problems:
+                text = f"{'Error' if p.severity == 'error' else 'Warning'}: {field_label(p.field)}: {p.message}"
+                item = QListWidgetItem(text)
+                item.setData(Qt.ItemDataRole.UserRole, p.field or "")
+                item.setForeground(QBrush(QColor(170, 0, 0) if p.severity == "error" else QColor(150, 90, 0)))
+                self.problem_list.addItem(item)
+            self.problem_title.setVisible(bool(problems))
+            self.problem_list.setVisible(bool(problems))
         for p in problems:
             parts = split_field(p.field)
-            text = f"{'Error' if p.severity == 'error' else 'Warning'}: {field_label(p.field)}: {p.message}"
-            item = QListWidgetItem(text)
-            item.setData(Qt.ItemDataRole.UserRole, p.field)
-            item.setForeground(QBrush(QColor(170, 0, 0) if p.severity == "error" else QColor(150, 90, 0)))
-            self.problem_list.addItem(item)
             if parts is None:
                 continue
             section, index, key = parts
@@ -369,12 +378,10 @@ class ModelForm(QWidget):
             table.set_marks(table_marks[section])
         for key, w in [("name", self.name_edit)] + [(f"tach.{k}", w) for k, w in self.tach_widgets.items()]:
             found = widget_marks.get(key, [])
-            mark_widget(w, found)
+            self._widget_marks.mark(w, found)
         for key, sec in self.sections.items():
             n = section_counts.get(key, 0)
             sec.set_note(f"({n} to fix)" if n else "")
-        self.problem_title.setVisible(bool(problems))
-        self.problem_list.setVisible(bool(problems))
 
     def widget_for(self, field: str) -> QWidget | None:
         """The widget that edits ``field`` (table, tach widget or name box), or None."""
@@ -398,7 +405,7 @@ class ModelForm(QWidget):
             t = self.tables[section]
             return t.is_marked(index, t.column_index(key))
         w = self.widget_for(field)
-        return bool(w is not None and w.property("problem"))
+        return bool(w is not None and self._widget_marks.level(w))
 
     def _go_to_problem(self, item: QListWidgetItem) -> None:
         field = item.data(Qt.ItemDataRole.UserRole)

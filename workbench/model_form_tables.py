@@ -3,6 +3,13 @@
 Each :class:`ElementTable` is a :class:`QTableWidget` whose cells hold the text the
 analyst typed, with Add / Remove / Move up / Move down buttons.  Shaft columns and
 fixed-choice columns edit through a combo box (:class:`ChoiceDelegate`).
+
+Note on PySide6 6.12.0 with Python 3.11 (measured here): every call of a Qt method
+that returns nothing, and every read of an unset item role or property, lowers the
+reference count of ``None`` by one without raising it, and the process aborts
+("none_dealloc") once it reaches zero.  This module therefore sets every role it
+reads when it creates an item, and re-marks only the cells whose mark changed;
+:mod:`workbench.model_form_refguard` neutralises the leak itself.
 """
 
 from __future__ import annotations
@@ -16,11 +23,13 @@ from PySide6.QtWidgets import (
     QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget,
 )
 
+from . import model_form_refguard  # noqa: F401  (see its docstring)
 from .model_form_fields import SECTION_COLUMNS, SECTION_NOUNS, Column, format_value
 
 ERROR_BRUSH = QBrush(QColor(255, 205, 205))
 WARNING_BRUSH = QBrush(QColor(255, 238, 185))
 OLD_TEXT_ROLE = Qt.ItemDataRole.UserRole + 1
+MARK_ROLE = Qt.ItemDataRole.UserRole + 2     # 0 plain, 1 warning, 2 error
 
 
 class ChoiceDelegate(QStyledItemDelegate):
@@ -126,6 +135,7 @@ class ElementTable(QWidget):
         for j, text in enumerate(texts):
             item = QTableWidgetItem(text)
             item.setData(OLD_TEXT_ROLE, text)
+            item.setData(MARK_ROLE, 0)
             item.setToolTip(self.columns[j].tip)
             self.table.setItem(i, j, item)
         return i
@@ -223,18 +233,18 @@ class ElementTable(QWidget):
                 if item is None:
                     continue
                 found = row_marks + marks.get((i, j), [])
-                if not found:
-                    item.setData(Qt.ItemDataRole.BackgroundRole, None)
-                    item.setToolTip(self.columns[j].tip)
-                    continue
-                error = any(sev == "error" for sev, _ in found)
-                item.setBackground(ERROR_BRUSH if error else WARNING_BRUSH)
-                item.setToolTip("\n".join(msg for _, msg in found))
+                level = 0 if not found else 2 if any(sev == "error" for sev, _ in found) else 1
+                tip = "\n".join(msg for _, msg in found) if found else self.columns[j].tip
+                if level == item.data(MARK_ROLE) and tip == item.toolTip():
+                    continue   # unchanged: touch nothing (see the module note on PySide6 6.12)
+                item.setBackground((QBrush(), WARNING_BRUSH, ERROR_BRUSH)[level])
+                item.setData(MARK_ROLE, level)
+                item.setToolTip(tip)
         t.blockSignals(False)
 
     def is_marked(self, row: int, column: int) -> bool:
         item = self.table.item(row, column)
-        return item is not None and item.data(Qt.ItemDataRole.BackgroundRole) is not None
+        return item is not None and bool(item.data(MARK_ROLE))
 
     def column_index(self, key: str) -> int:
         return next(j for j, c in enumerate(self.columns) if c.key == key)

@@ -42,7 +42,9 @@ class FoldingSection(QWidget):
 
     def set_note(self, note: str) -> None:
         """Text after the title, e.g. ``"(2 to fix)"``; empty to clear."""
-        self.button.setText(f"{self.title}  {note}".rstrip())
+        text = f"{self.title}  {note}".rstrip()
+        if text != self.button.text():
+            self.button.setText(text)
 
 
 class TachEditor(QWidget):
@@ -141,18 +143,31 @@ def set_widget_text(w: QWidget, text: str) -> None:
         w.setText(text)
 
 
-def mark_widget(w: QWidget, found: list[tuple[str, str]]) -> None:
-    """Colour ``w`` and put the messages in its tooltip; ``found`` empty restores it."""
-    if not found:
-        w.setProperty("problem", False)
-        w.setStyleSheet("")
-        base_tip = w.property("base_tip")
-        if base_tip is not None:
-            w.setToolTip(base_tip)
-        return
-    if w.property("base_tip") is None:
-        w.setProperty("base_tip", w.toolTip())
-    severity = "error" if any(s == "error" for s, _ in found) else "warning"
-    w.setProperty("problem", True)
-    w.setStyleSheet(f"{type(w).__name__} {{ {MARK_STYLE[severity]} }}")
-    w.setToolTip("\n".join(m for _, m in found))
+class WidgetMarks:
+    """Colours widgets that have a problem and puts the messages in their tooltips.
+
+    State lives here in Python (not in Qt properties), and a widget is touched only
+    when its mark changes: see the PySide6 6.12 note in :mod:`workbench.model_form_tables`.
+    """
+
+    def __init__(self):
+        self._base_tips: dict[int, str] = {}
+        self._shown: dict[int, tuple[int, str]] = {}
+
+    def mark(self, w: QWidget, found: list[tuple[str, str]]) -> None:
+        """Mark ``w`` with ``[(severity, message), ...]``; an empty list restores it."""
+        key = id(w)
+        if key not in self._base_tips:
+            self._base_tips[key] = w.toolTip()
+        level = 0 if not found else 2 if any(s == "error" for s, _ in found) else 1
+        tip = "\n".join(m for _, m in found) if found else self._base_tips[key]
+        if self._shown.get(key, (0, self._base_tips[key])) == (level, tip):
+            return
+        self._shown[key] = (level, tip)
+        style = "" if level == 0 else MARK_STYLE["error" if level == 2 else "warning"]
+        w.setStyleSheet(f"{type(w).__name__} {{ {style} }}" if style else "")
+        w.setToolTip(tip)
+
+    def level(self, w: QWidget) -> int:
+        """0 plain, 1 warning, 2 error."""
+        return self._shown.get(id(w), (0, ""))[0]

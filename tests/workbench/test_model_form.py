@@ -379,3 +379,54 @@ def test_frequency_panel_copy_button_copies_selected_rows(qtbot):
     assert float(rows[0]["Hz"]) == pytest.approx(50.0)   # reference shaft at 3000 rpm (common practice, no source)
     panel.set_table(None)
     assert panel.view.row_count() == 0
+
+
+# ---- any typed text ---------------------------------------------------------------------------
+
+_NUMBER_CELLS = [("meshes", "driver_teeth"), ("meshes", "driven_teeth"), ("bearings", "rolling_elements"),
+                 ("bearings", "pitch_diameter_mm"), ("sensors", "channel"), ("sensors", "scale")]
+
+
+@given(cell=st.sampled_from(_NUMBER_CELLS), text=st.text(max_size=12))
+@settings(max_examples=60, deadline=None)
+def test_any_text_in_a_number_cell_is_kept_and_never_crashes(qapp, cell, text):
+    form = ModelForm()
+    try:
+        form.set_model(PAIR)
+        section, key = cell
+        t = form.tables[section]
+        t.table.item(0, t.column_index(key)).setText(text)
+        form.settle_now()
+        assert cell_text(form, section, 0, key) == text               # nothing typed is lost
+        try:
+            float(text)
+            is_number = True
+        except ValueError:
+            is_number = False
+        col = t.columns[t.column_index(key)]
+        blank_with_default = text.strip() == "" and col.default is not None
+        if not is_number and not blank_with_default:
+            # text Python's float() rejects is never a count or a size (common practice, no source)
+            assert f"{section}[0].{key}" in {p.field for p in form.problems() if p.severity == "error"}
+            assert form.is_marked(f"{section}[0].{key}")
+            assert form.model() == PAIR
+    finally:
+        form.deleteLater()
+
+
+def test_refcount_guard_keeps_long_sessions_alive(form):
+    import sys
+
+    from workbench import model_form_refguard as guard
+
+    leaks = guard.leaks()
+    assert set(leaks) == {"None", "True"}
+    if guard.guard():
+        # PEP 683 makes these immortal on 3.12; the guard gives the same effect on 3.11
+        assert sys.getrefcount(None) > guard.SPARE_REFERENCES // 2
+        assert sys.getrefcount(True) > guard.SPARE_REFERENCES // 2
+    for i in range(200):              # a long editing session in miniature
+        form.set_model(PAIR)
+        form.tables["meshes"].table.item(0, 2).setText(str(30 + i % 20))
+        form.settle_now()
+    assert form.model().meshes[0].driver_teeth == 30 + 199 % 20
