@@ -496,9 +496,29 @@ class SpeedProfile:
     # -- interpolants (built once, lazily) -----------------------------------------------------
     @cached_property
     def _forward(self):
-        from scipy.interpolate import PchipInterpolator
+        from scipy.interpolate import CubicHermiteSpline, PchipInterpolator
 
-        return PchipInterpolator(self.knot_times_s, self.knot_angle_rev, extrapolate=False)
+        t, a = self.knot_times_s, self.knot_angle_rev
+        pchip = PchipInterpolator(t, a, extrapolate=False)
+        if t.size < 3:
+            return pchip
+        # PCHIP's one-sided end formula gives a zero (or near-zero) end slope when the
+        # speed changes fast across the last intervals; a turning shaft has positive
+        # speed, so an end slope under 10 % of its interval's secant slope is replaced
+        # by the secant (still monotone: 0 < d <= 3 x secant).
+        d = pchip.derivative()(t)
+        sec0 = (a[1] - a[0]) / (t[1] - t[0])
+        sec1 = (a[-1] - a[-2]) / (t[-1] - t[-2])
+        bad0 = not d[0] > 0.1 * sec0
+        bad1 = not d[-1] > 0.1 * sec1
+        if not (bad0 or bad1):
+            return pchip
+        d = d.copy()
+        if bad0:
+            d[0] = sec0
+        if bad1:
+            d[-1] = sec1
+        return CubicHermiteSpline(t, a, d, extrapolate=False)
 
     @cached_property
     def _inverse_guess(self):

@@ -275,3 +275,22 @@ def test_from_knots_rejects_bad_knots():
         SpeedProfile.from_knots([0.0, 1.0, 0.5], [0.0, 1.0, 2.0], shaft="a")
     with pytest.raises(TachError):
         SpeedProfile.from_knots([0.0], [0.0], shaft="a")
+
+
+from hypothesis import given, settings, strategies as st  # noqa: E402
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.lists(st.floats(0.2, 5.0), min_size=2, max_size=40), st.floats(0.1, 100.0))
+def test_profile_inverse_property(steps, hz):
+    # Any strictly increasing knots: angle_rev is monotonic and time_s inverts it
+    # (definition of an inverse; common practice, no source).
+    dt = np.asarray(steps) / hz
+    t = np.concatenate(([0.0], np.cumsum(dt)))
+    a = np.arange(t.size, dtype=float)
+    prof = SpeedProfile.from_knots(t, a, shaft="s", source="estimated")
+    tq = np.linspace(-0.1 * t[-1], 1.1 * t[-1], 301)
+    aq = prof.angle_rev(tq)
+    assert np.all(np.diff(aq) > 0)
+    assert np.max(np.abs(prof.time_s(aq) - tq)) <= 1e-9 * max(1.0, t[-1])
+    assert np.all(prof.speed_hz(tq) >= 0)
