@@ -166,10 +166,21 @@ class ModelForm(QWidget):
 
     # ---- public API ----------------------------------------------------------------
     def set_model(self, train: GearTrain | None, *, n_channels: int | None = None) -> None:
-        """Show ``train`` in the form (``None``: empty form with a hint on what to enter first).
+        """Show ``train`` in the form, replacing whatever was typed.
 
+        Parameters
+        ----------
+        train : GearTrain or None
+            The model to edit; ``None`` gives an empty form with a hint on what to
+            enter first, and no problems are listed until the first edit.
+        n_channels : int, optional
+            Number of channels in the recording (see :meth:`set_n_channels`).
+
+        Notes
+        -----
         The model is checked at once and :attr:`problems_changed` is emitted;
-        :meth:`model` returns ``train`` when it has no errors, else ``None``.
+        :attr:`model_changed` is not.  :meth:`model` then returns ``train`` when it
+        has no errors, else ``None``.
         """
         self._timer.stop()
         if n_channels is not None:
@@ -208,7 +219,14 @@ class ModelForm(QWidget):
         return list(self._problems)
 
     def set_n_channels(self, n: int | None) -> None:
-        """Number of channels in the recording (checks sensor and tach channels against it)."""
+        """Set the number of channels in the recording.
+
+        Parameters
+        ----------
+        n : int or None
+            Channel count; sensor and tach channels from ``n`` up are reported, and
+            the tach channel box offers channels 0 to ``n - 1``.  ``None``: unknown.
+        """
         self._n_channels = None if n is None else int(n)
         self.tach.set_channel_count(self._n_channels)
         if not self._pristine:
@@ -222,9 +240,19 @@ class ModelForm(QWidget):
         self.sensor_combo.setCurrentIndex(index)
 
     def load_file(self, path) -> bool:
-        """Load a TOML model file into the form; problems are shown in the form, not raised.
+        """Load a TOML model file (:func:`dsp.model.load_model`) into the form.
 
-        Returns True when the file was loaded.
+        Parameters
+        ----------
+        path : str or Path
+            The model file.
+
+        Returns
+        -------
+        bool
+            True when loaded (then :attr:`file_loaded` and, for a model without
+            errors, :attr:`model_changed` are emitted).  On failure the reasons are
+            shown in the form, nothing is raised and the form keeps its content.
         """
         from dsp.model import load_model
 
@@ -248,7 +276,19 @@ class ModelForm(QWidget):
         return True
 
     def save_file(self, path) -> bool:
-        """Save the typed model as TOML; refused (message in the form) while it has errors."""
+        """Save the typed model as TOML (:func:`dsp.model.save_model`, atomic).
+
+        Parameters
+        ----------
+        path : str or Path
+            Destination file.
+
+        Returns
+        -------
+        bool
+            True when saved.  Refused, with a message in the form, while the draft
+            has errors (such a file could not be loaded back).
+        """
         from dsp.model import save_model
 
         path = Path(path)

@@ -430,3 +430,16 @@ def test_refcount_guard_keeps_long_sessions_alive(form):
         form.tables["meshes"].table.item(0, 2).setText(str(30 + i % 20))
         form.settle_now()
     assert form.model().meshes[0].driver_teeth == 30 + 199 % 20
+
+
+def test_choosing_a_listed_problem_goes_to_its_cell(form, qtbot):
+    form.set_model(PAIR)
+    form.tables["bearings"].table.item(0, 2).setText("nine")
+    form.settle_now()
+    form.sections["bearings"].set_open(False)
+    item = form.problem_list.item(0)
+    assert "Bearings, row 1, Rolling elements" in item.text()
+    form.problem_list.itemClicked.emit(item)
+    table = form.tables["bearings"].table
+    assert form.sections["bearings"].body.isVisible()
+    assert (table.currentRow(), table.currentColumn()) == (0, 2)
