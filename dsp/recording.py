@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import hashlib
 import os
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
@@ -63,7 +63,7 @@ class Recording:
     sha256: str
     format: str
     subtype: str
-    data: np.ndarray
+    data: np.ndarray = field(repr=False)
 
     def channel(self, i: int) -> np.ndarray:
         """Read-only float32 view of channel ``i`` (0-based)."""

@@ -370,13 +370,19 @@ def detect_pulses(x, fs, *, pulses_per_rev: int = 1, edge: str = "rising", thres
         )
     t, repaired, n_gaps_left = _insert_missing(t, half)
     warnings = _speed_warnings(t, ppr, n_gaps_left)
+    n_repaired = int(np.count_nonzero(repaired))
+    if n_repaired + n_rejected > 0.1 * t.size:
+        warnings.append(
+            f"{n_repaired} pulses inserted and {n_rejected} removed out of {n_found} found (more than 10 %); "
+            "check the tach threshold, edge and pulses_per_rev"
+        )
     t.setflags(write=False)
     repaired.setflags(write=False)
     return TachPulses(
         times_s=t,
         repaired=repaired,
         n_found=n_found,
-        n_repaired=int(np.count_nonzero(repaired)),
+        n_repaired=n_repaired,
         n_rejected=int(n_rejected),
         pulses_per_rev=ppr,
         threshold=thr,
