@@ -17,6 +17,7 @@ in :mod:`workbench.model_form_freq` and is re-exported here.
 
 from __future__ import annotations
 
+from html import escape
 from pathlib import Path
 
 from PySide6.QtCore import Qt, QTimer, Signal
@@ -31,7 +32,7 @@ from dsp.model import GearTrain
 
 from .model_form_fields import (
     NO_TACH, SECTION_CLASSES, SECTION_TITLES, build_elements, build_tach, element_texts,
-    field_label, merge_problems, split_field, tach_texts,
+    field_label, group_marks, merge_problems, split_field, tach_texts,
 )
 from .model_form_freq import FrequencyTablePanel, FrequencyTableView
 from .model_form_tables import ElementTable
@@ -260,16 +261,16 @@ class ModelForm(QWidget):
         try:
             train = load_model(path)
         except ModelError as e:
-            lines = "<br>".join(_escape(str(p)) for p in e.problems) or _escape(str(e))
-            self._status(f"Could not load {_escape(path.name)}; fix these in the file and load "
+            lines = "<br>".join(_esc(str(p)) for p in e.problems) or _esc(str(e))
+            self._status(f"Could not load {_esc(path.name)}; fix these in the file and load "
                          f"it again:<br>{lines}", error=True)
             return False
         except (GearbenchError, OSError, ValueError) as e:
-            self._status(f"Could not load {_escape(path.name)}: {_escape(str(e))}", error=True)
+            self._status(f"Could not load {_esc(path.name)}: {_esc(str(e))}", error=True)
             return False
         self.set_model(train)
         self.path = path
-        self._status(f"Loaded {_escape(str(path))}.")
+        self._status(f"Loaded {_esc(str(path))}.")
         self.file_loaded.emit(str(path))
         if self._valid is not None:
             self.model_changed.emit(self._valid)
@@ -301,10 +302,10 @@ class ModelForm(QWidget):
         try:
             save_model(self.draft(), path)
         except (GearbenchError, OSError, ValueError) as e:
-            self._status(f"Could not save {_escape(str(path))}: {_escape(str(e))}", error=True)
+            self._status(f"Could not save {_esc(str(path))}: {_esc(str(e))}", error=True)
             return False
         self.path = path
-        self._status(f"Saved {_escape(str(path))}.")
+        self._status(f"Saved {_esc(str(path))}.")
         return True
 
     def settle_now(self) -> None:
@@ -385,9 +386,6 @@ class ModelForm(QWidget):
         return list(validate(draft, n_channels=self._n_channels))
 
     def _show_problems(self, problems: list[Problem]) -> None:
-        table_marks: dict[str, dict] = {k: {} for k in self.tables}
-        widget_marks: dict[str, list[tuple[str, str]]] = {}
-        section_counts: dict[str, int] = {}
         if problems != self._listed:      # rebuild the list only when it changes
             self._listed = list(problems)
             self.problem_list.clear()
@@ -399,23 +397,9 @@ class ModelForm(QWidget):
                 self.problem_list.addItem(item)
             self.problem_title.setVisible(bool(problems))
             self.problem_list.setVisible(bool(problems))
-        for p in problems:
-            parts = split_field(p.field)
-            if parts is None:
-                continue
-            section, index, key = parts
-            section_counts[section] = section_counts.get(section, 0) + 1
-            mark = (p.severity, p.message)
-            if section in self.tables and index is not None:
-                table = self.tables[section]
-                col = next((j for j, c in enumerate(table.columns) if c.key == key), None)
-                table_marks[section].setdefault((index, col), []).append(mark)
-            elif section == "tach" and key in self.tach_widgets:
-                widget_marks.setdefault(f"tach.{key}", []).append(mark)
-            elif section == "name" and key is None:
-                widget_marks.setdefault("name", []).append(mark)
+        table_marks, widget_marks, section_counts = group_marks(problems)
         for section, table in self.tables.items():
-            table.set_marks(table_marks[section])
+            table.set_marks(table_marks.get(section, {}))
         for key, w in [("name", self.name_edit)] + [(f"tach.{k}", w) for k, w in self.tach_widgets.items()]:
             found = widget_marks.get(key, [])
             self._widget_marks.mark(w, found)
@@ -481,7 +465,7 @@ class ModelForm(QWidget):
             p = Path(path)
             self.save_file(p if p.suffix else p.with_suffix(".toml"))
 
-    def _status(self, html: str, *, error: bool = False) -> None:
+    def _status(self, html: str, *, error: bool = False) -> None:  # html: rich text
         self.status_label.setStyleSheet("QLabel { color: #aa0000; }" if error else "")
         self.status_label.setText(html)
         self.status_label.setVisible(bool(html))
@@ -491,5 +475,5 @@ def _has_errors(problems: list[Problem]) -> bool:
     return any(p.severity == "error" for p in problems)
 
 
-def _escape(text: str) -> str:
-    return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+def _esc(text: str) -> str:
+    return escape(text, quote=False)

@@ -230,3 +230,38 @@ def field_label(path: str | None) -> str:
         cols = TACH_COLUMNS if section == "tach" else SECTION_COLUMNS.get(section, ())
         words.append(next((c.header for c in cols if c.key == key), key))
     return ", ".join(words)
+
+
+def group_marks(problems: list[Problem]):
+    """Sort problems by where they are shown.
+
+    Returns
+    -------
+    table_marks : dict
+        ``section -> {(row, column_index or None): [(severity, message), ...]}``
+        for the element tables (``None``: the whole row).
+    widget_marks : dict
+        ``"name"`` or ``"tach.<key>"`` -> ``[(severity, message), ...]``.
+    section_counts : dict
+        ``section -> number of problems`` (for the section titles).
+    """
+    table_marks: dict[str, dict] = {}
+    widget_marks: dict[str, list[tuple[str, str]]] = {}
+    section_counts: dict[str, int] = {}
+    tach_keys = {c.key for c in TACH_COLUMNS}
+    for p in problems:
+        parts = split_field(p.field)
+        if parts is None:
+            continue
+        section, index, key = parts
+        section_counts[section] = section_counts.get(section, 0) + 1
+        mark = (p.severity, p.message)
+        if section in SECTION_COLUMNS and index is not None:
+            cols = SECTION_COLUMNS[section]
+            col = next((j for j, c in enumerate(cols) if c.key == key), None)
+            table_marks.setdefault(section, {}).setdefault((index, col), []).append(mark)
+        elif section == "tach" and key in tach_keys:
+            widget_marks.setdefault(f"tach.{key}", []).append(mark)
+        elif section == "name" and key is None and index is None:
+            widget_marks.setdefault("name", []).append(mark)
+    return table_marks, widget_marks, section_counts

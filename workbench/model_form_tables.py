@@ -95,10 +95,14 @@ class ElementTable(QWidget):
         self.table.itemChanged.connect(self._on_item_changed)
 
         noun = SECTION_NOUNS[section]
-        self.add_button = QPushButton(f"Add {noun}")
+        self.add_button = QPushButton("Add")
+        self.add_button.setToolTip(f"Add a {noun} at the end of the table.")
         self.remove_button = QPushButton("Remove")
         self.up_button = QPushButton("Move up")
         self.down_button = QPushButton("Move down")
+        self.remove_button.setToolTip("Remove the selected row.")
+        self.up_button.setToolTip("Move the selected row up one place.")
+        self.down_button.setToolTip("Move the selected row down one place.")
         self.add_button.clicked.connect(self.add_row)
         self.remove_button.clicked.connect(self.remove_current_row)
         self.up_button.clicked.connect(lambda: self.move_current_row(-1))
