@@ -254,11 +254,21 @@ def _place_impulses(times_s: np.ndarray, heights: np.ndarray, fs: float, n: int)
 
 def _tooth_profile(angle_rev: np.ndarray, teeth: int, rng) -> tuple[np.ndarray, np.ndarray]:
     """Two random profiles (unit std per tooth), linear between tooth centres,
-    periodic in one revolution of the gear; ``angle_rev`` in [0, 1)."""
+    periodic in one revolution of the gear; ``angle_rev`` in [0, 1) (float32).
+
+    The profiles are tabulated at 64 points per tooth and looked up (one gather of
+    complex64 for both), much faster than interpolating every sample.
+    """
     per_tooth = rng.standard_normal((2, teeth))
-    xp = (np.arange(teeth + 2) - 0.5) / teeth
-    ends = np.concatenate([per_tooth[:, -1:], per_tooth, per_tooth[:, :1]], axis=1)
-    return np.interp(angle_rev, xp, ends[0]), np.interp(angle_rev, xp, ends[1])
+    padded = np.concatenate([per_tooth[:, -1:], per_tooth, per_tooth[:, :1]], axis=1)
+    xp = (np.arange(teeth + 2) - 0.5) / teeth                    # tooth centres, one extra each side
+    m = 64 * teeth
+    grid = (np.arange(m) + 0.5) / m
+    table = (np.interp(grid, xp, padded[0]) + 1j * np.interp(grid, xp, padded[1])).astype(np.complex64)
+    idx = (angle_rev * np.float32(m)).astype(np.int32)
+    np.minimum(idx, m - 1, out=idx)
+    z = np.take(table, idx)
+    return z.real, z.imag
 
 
 def _wrap(x: np.ndarray) -> np.ndarray:
@@ -277,14 +287,16 @@ def _speed_profile(rpm: float, n: int, fs: float, speed: str, variation_pct: flo
         dur = n / fs
         return f0 * (1.0 - v + 2.0 * v * t / dur)
     # fluctuating: three slow sinusoids with random frequencies (0.03-0.25 Hz) and
-    # phases, normalised so that the largest deviation is exactly v.
+    # phases, normalised so that the largest deviation is exactly v (float32 trig).
     freqs = rng.uniform(0.03, 0.25, 3)
     phases = rng.uniform(0, 2 * np.pi, 3)
-    wander = np.zeros(n)
+    wander = np.zeros(n, dtype=np.float32)
     for fq, ph in zip(freqs, phases):
-        wander += np.sin(2 * np.pi * fq * t + ph)
+        cycles = fq * t + ph / (2 * np.pi)
+        cycles -= np.floor(cycles)
+        wander += np.sin(np.float32(2 * np.pi) * cycles.astype(np.float32))
     wander /= np.max(np.abs(wander))
-    return f0 * (1.0 + v * wander)
+    return f0 * (1.0 + v * wander.astype(np.float64))
 
 
 # ---------------------------------------------------------------------------
@@ -489,53 +501,65 @@ def simulate(train, *, rpm: float | None = None, duration_s: float = 10.0, fs: f
     fs = float(fs)
 
     # --- speed and angle -------------------------------------------------
+    # Angles stay float64 (long records); everything reduced modulo one
+    # revolution and all trigonometry run in float32, which is ~30x faster.
     f_ref = _speed_profile(float(rpm), n, fs, speed, float(speed_variation_pct), rng)
-    if speed == "steady" or speed_variation_pct == 0:
+    steady = speed == "steady" or speed_variation_pct == 0
+    if steady:
         theta = f_ref[0] * (np.arange(n) / fs) - start_angle_rev
     else:
         theta = np.empty(n)
         theta[0] = 0.0
-        np.cumsum(0.5 * (f_ref[1:] + f_ref[:-1]) / fs, out=theta[1:])
+        np.cumsum((f_ref[1:] + f_ref[:-1]) * (0.5 / fs), out=theta[1:])
         theta -= start_angle_rev
     t_of = np.arange(n) / fs
 
     def times_at(theta_events):
         return np.interp(theta_events, theta, t_of)
 
+    rev_cache: dict[float, np.ndarray] = {}
+
+    def rev32(order: float) -> np.ndarray:
+        """Angle ``order x theta`` modulo 1 rev, float32 (cached)."""
+        key = float(order)
+        if key not in rev_cache:
+            rev_cache[key] = _frac_mul(theta, key).astype(np.float32)
+        return rev_cache[key]
+
     def shaft_phase(order: float) -> np.ndarray:
-        """2 pi x shaft angle, reduced to keep float precision."""
-        return (2 * np.pi) * _frac_mul(theta, order)
+        """2 pi x shaft angle modulo one revolution (rad, float32)."""
+        return _TWO_PI32 * rev32(order)
 
     # --- per-stage modulation, built up by the faults --------------------
     stages = _stages(train)
     n_st = len(stages)
-    am = [np.zeros(0)] * n_st            # additive AM (empty: none)
-    pm = [np.zeros(0)] * n_st
+    am: list[np.ndarray | None] = [None] * n_st      # additive AM (None: none)
+    pm: list[np.ndarray | None] = [None] * n_st
     harmonic_gain = [np.ones(max(n_harmonics, 1)) for _ in range(n_st)]
 
     def add_mod(i, a=None, p=None):
         if a is not None:
-            am[i] = a if am[i].size == 0 else am[i] + a
+            am[i] = a if am[i] is None else np.add(am[i], a, out=am[i])
         if p is not None:
-            pm[i] = p if pm[i].size == 0 else pm[i] + p
+            pm[i] = p if pm[i] is None else np.add(pm[i], p, out=pm[i])
 
-    impacts_tooth = np.zeros(0)
     impact_t_tooth, impact_h_tooth = [], []
     impact_t_brg, impact_h_brg = [], []
     fault_events: list[np.ndarray] = []
-    extra = np.zeros(n)
+    acc = np.zeros(n, dtype=np.float32)
 
-    # healthy run-out: AM/PM at each shaft rate of each parallel stage
+    # healthy run-out: AM/PM at each shaft rate of each stage
     for i, (kind, s) in enumerate(stages):
         shafts = (s.driver, s.driven) if kind == "mesh" else (s.sun_shaft, s.carrier_shaft)
         for sh in shafts:
             ph = shaft_phase(orders[sh])
             psi_a, psi_p = rng.uniform(0, 2 * np.pi, 2)
-            add_mod(i, _HEALTHY_AM * np.cos(ph + psi_a), _HEALTHY_PM_RAD * np.cos(ph + psi_p))
+            add_mod(i, _F32(_HEALTHY_AM) * np.cos(ph + _F32(psi_a)),
+                    _F32(_HEALTHY_PM_RAD) * np.cos(ph + _F32(psi_p)))
         if kind == "mesh":  # manufacturing tooth-to-tooth errors of both gears
             for sh, z in ((s.driver, s.driver_teeth), (s.driven, s.driven_teeth)):
-                prof_a, prof_p = _tooth_profile(_frac_mul(theta, orders[sh]), int(z), rng)
-                add_mod(i, _HEALTHY_TOOTH_AM * prof_a, _HEALTHY_TOOTH_PM_RAD * prof_p)
+                prof_a, prof_p = _tooth_profile(rev32(orders[sh]), int(z), rng)
+                add_mod(i, _F32(_HEALTHY_TOOTH_AM) * prof_a, _F32(_HEALTHY_TOOTH_PM_RAD) * prof_p)
 
     for f in faults:
         events = np.zeros(0)
@@ -547,26 +571,26 @@ def simulate(train, *, rpm: float | None = None, duration_s: float = 10.0, fs: f
                                         f"{g.shaft!r}; give a tooth from 0 to {g.teeth - 1}")
                 dip, pmr, sigma, impact = _TOOTH[f.severity]
                 centre = (f.tooth + 0.5) / g.teeth
-                # angle counted in contact periods: psi * contacts
-                x = _wrap((_frac_mul(theta, g.rel_order) - centre) * g.contacts)
-                d_pitch = x * g.teeth / g.contacts
-                w = np.exp(-0.5 * (d_pitch / sigma) ** 2)
-                add_mod(g.stage, -dip * w, pmr * w)
+                # distance to the damaged tooth in tooth pitches, counted in contact periods
+                x = _wrap((rev32(g.rel_order) - _F32(centre)) * _F32(g.contacts))
+                d_pitch = x * _F32(g.teeth / g.contacts / sigma)
+                w = np.exp(_F32(-0.5) * d_pitch * d_pitch)
+                add_mod(g.stage, _F32(-dip) * w, _F32(pmr) * w)
                 # one impact each time the tooth meshes
                 span = theta[-1] * g.rel_order
                 j = np.arange(math.floor(theta[0] * g.rel_order * g.contacts) - 1,
                               math.ceil(span * g.contacts) + 1)
                 ev_theta = (centre + j / g.contacts) / g.rel_order
+                ev_theta = ev_theta[(ev_theta > theta[0]) & (ev_theta < theta[-1])]
                 events = times_at(ev_theta)
-                events = events[(ev_theta > theta[0]) & (ev_theta < theta[-1])]
                 impact_t_tooth.append(events)
                 impact_h_tooth.append(np.full(events.size, impact))
             else:
                 gain, a_std, p_std = _WEAR[f.severity]
                 harmonic_gain[g.stage][1:] *= gain
                 # smooth random profile over the teeth, periodic in one gear revolution
-                prof_a, prof_p = _tooth_profile(_frac_mul(theta, g.rel_order), g.teeth, rng)
-                add_mod(g.stage, a_std * prof_a, p_std * prof_p)
+                prof_a, prof_p = _tooth_profile(rev32(g.rel_order), g.teeth, rng)
+                add_mod(g.stage, _F32(a_std) * prof_a, _F32(p_std) * prof_p)
         elif f.kind == "eccentricity":
             if f.on not in orders:
                 raise AnalysisError(f"unknown shaft {f.on!r} for the fault; choose one of: {', '.join(orders)}")
@@ -576,12 +600,12 @@ def simulate(train, *, rpm: float | None = None, duration_s: float = 10.0, fs: f
             for i, (kind, s) in enumerate(stages):
                 on_stage = (s.driver, s.driven) if kind == "mesh" else (s.sun_shaft, s.carrier_shaft)
                 if f.on in on_stage:
-                    add_mod(i, depth * np.cos(ph), pmr * np.sin(ph))
+                    add_mod(i, _F32(depth) * np.cos(ph), _F32(pmr) * np.sin(ph))
                     hit = True
             if not hit:
                 raise AnalysisError(f"shaft {f.on!r} carries no gear, so eccentricity cannot show; "
                                     "choose a shaft of a mesh")
-            extra += depth * 0.3 * np.cos(ph)
+            acc += _F32(depth * 0.3) * np.cos(ph)
         else:
             bearings = {b.name: b for b in train.bearings}
             if f.on not in bearings:
@@ -611,49 +635,48 @@ def simulate(train, *, rpm: float | None = None, duration_s: float = 10.0, fs: f
         fault_events.append(np.asarray(events))
 
     # --- gear meshes -----------------------------------------------------
-    acc = extra
     beta = rng.uniform(0, 2 * np.pi, (n_st, max(n_harmonics, 1)))
     for i, (kind, s) in enumerate(stages):
         amp = _MESH_AMPLITUDE_G * 0.7**i
         gains = np.array([_HARMONIC_GAINS[h] if h < len(_HARMONIC_GAINS) else 0.1 for h in range(n_harmonics)])
-        coef = amp * gains * harmonic_gain[i][:n_harmonics] * np.exp(1j * beta[i, :n_harmonics])
-        a_mod = 1.0 + am[i] if am[i].size else None
+        amps = amp * gains * harmonic_gain[i][:n_harmonics]
+        a_mod = None if am[i] is None else am[i] + _F32(1.0)
         if kind == "mesh":
-            mesh_rev = _frac_mul(theta, orders[s.driver] * s.driver_teeth)
-            acc = acc + _harmonic_sum(mesh_rev, pm[i], coef, a_mod)
+            mesh_rev = rev32(orders[s.driver] * s.driver_teeth)
+            acc += _harmonic_sum(mesh_rev, pm[i], amps, beta[i, :n_harmonics], a_mod)
         else:
             o_c = orders[s.carrier_shaft]
-            mesh_rev = _frac_mul(theta, o_c * s.ring_teeth)
-            carrier = theta * o_c
-            total = np.zeros(n)
+            mesh_rev = rev32(o_c * s.ring_teeth)
+            carrier = rev32(o_c)
+            inv_width = _F32(s.planets / 0.25)
             for p in range(s.planets):
                 pos = p / s.planets
-                win = np.exp(-0.5 * (_wrap(carrier - pos) / (0.25 / s.planets)) ** 2)
-                shift = (s.ring_teeth * pos) % 1.0
+                u = _wrap(carrier - _F32(pos)) * inv_width
+                win = np.exp(_F32(-0.5) * u * u)
+                shift = _F32((s.ring_teeth * pos) % 1.0)
                 a_p = win if a_mod is None else win * a_mod
-                total += _harmonic_sum(mesh_rev - shift, pm[i], coef, a_p)
-            acc = acc + total
+                acc += _harmonic_sum(mesh_rev - shift, pm[i], amps, beta[i, :n_harmonics], a_p)
     for sh, o in orders.items():
-        acc = acc + _SHAFT_1X_G * np.cos(shaft_phase(o) + rng.uniform(0, 2 * np.pi))
+        acc += _F32(_SHAFT_1X_G) * np.cos(shaft_phase(o) + _F32(rng.uniform(0, 2 * np.pi)))
+    rev_cache.clear()
 
     # --- impacts through resonances --------------------------------------
     if impact_t_tooth:
         imp = _place_impulses(np.concatenate(impact_t_tooth), np.concatenate(impact_h_tooth), fs, n)
         b, a = _resonator(_TOOTH_RESONANCE_HZ, _TOOTH_DAMPING, fs)
-        acc = acc + scipy.signal.lfilter(b, a, imp)
+        acc += scipy.signal.lfilter(b, a, imp).astype(np.float32)
     if impact_t_brg:
         imp = _place_impulses(np.concatenate(impact_t_brg), np.concatenate(impact_h_brg), fs, n)
         b, a = _resonator(_BEARING_RESONANCE_HZ, _BEARING_DAMPING, fs)
-        acc = acc + scipy.signal.lfilter(b, a, imp)
+        acc += scipy.signal.lfilter(b, a, imp).astype(np.float32)
 
     # --- transmission path, sensor ---------------------------------------
-    path = acc.copy()
+    accel = acc.copy()
     for f_hz, zeta, gain in _PATH:
         f_hz = min(f_hz, 0.4 * fs)
         b, a = scipy.signal.iirpeak(f_hz, Q=1 / (2 * zeta), fs=fs)
-        path += gain * scipy.signal.lfilter(b, a, acc)
-    accel = path.astype(np.float32)
-    accel += np.float32(noise_g) * rng.standard_normal(n, dtype=np.float32)
+        accel += _F32(gain) * scipy.signal.lfilter(b, a, acc).astype(np.float32)
+    accel += _F32(noise_g) * rng.standard_normal(n, dtype=np.float32)
     if clip_g is not None:
         np.clip(accel, -clip_g, clip_g, out=accel)
 
@@ -663,16 +686,17 @@ def simulate(train, *, rpm: float | None = None, duration_s: float = 10.0, fs: f
     pulse_k = np.arange(k_first, k_last + 1)
     tach_times = times_at(pulse_k.astype(np.float64))
     missing = rng.random(pulse_k.size) < missing_tach_pct / 100.0
-    r_rev = tach_rise_samples * f_ref / fs               # rise time as an angle (rev)
-    d = _wrap(theta)                                      # signed angle to the nearest mark
-    level = np.clip(0.5 + d / r_rev, 0, 1) * np.clip(0.5 + (tach_duty - d) / r_rev, 0, 1)
+    # rise time as an angle (rev)
+    r_rev = _F32(tach_rise_samples * f_ref[0] / fs) if steady else (tach_rise_samples / fs * f_ref).astype(np.float32)
+    d = _wrap(theta).astype(np.float32)                  # signed angle to the nearest mark
+    level = np.clip(_F32(0.5) + d / r_rev, 0, 1) * np.clip(_F32(0.5) + (_F32(tach_duty) - d) / r_rev, 0, 1)
     if missing.any():
         nearest = np.floor(theta + 0.5).astype(np.int64)
         level[np.isin(nearest, pulse_k[missing])] = 0.0
-    tach = (TACH_HIGH * level).astype(np.float32)
-    tach += np.float32(tach_noise) * rng.standard_normal(n, dtype=np.float32)
+    tach = _F32(TACH_HIGH) * level
+    tach += _F32(tach_noise) * rng.standard_normal(n, dtype=np.float32)
 
-    data = np.stack([accel, tach])
+    data = np.stack([accel, tach]).astype(np.float32, copy=False)
     for arr in (data, theta, f_ref, tach_times, missing):
         arr.setflags(write=False)
     for ev in fault_events:
@@ -688,23 +712,25 @@ def simulate(train, *, rpm: float | None = None, duration_s: float = 10.0, fs: f
                       fault_events_s=tuple(fault_events), parameters=params)
 
 
+_F32 = np.float32
+_TWO_PI32 = np.float32(2 * np.pi)
+
+
 def _frac_mul(theta: np.ndarray, order: float) -> np.ndarray:
-    """``order * theta`` modulo 1 (rev), so that later float32 or trig keeps precision."""
+    """``order * theta`` modulo 1 (rev, float64), so that float32 trig keeps precision."""
     x = order * theta
-    return x - np.floor(x)
+    x -= np.floor(x)
+    return x
 
 
-def _harmonic_sum(mesh_rev: np.ndarray, pm: np.ndarray, coef: np.ndarray, a_mod) -> np.ndarray:
-    """``Re sum_h coef_h exp(j h (2 pi mesh_rev + pm))`` times ``a_mod``."""
-    arg = (2 * np.pi) * mesh_rev
-    if pm.size:
-        arg = arg + pm
-    z = np.exp(1j * arg)
-    out = coef[0].real * z.real - coef[0].imag * z.imag
-    zh = z
-    for c in coef[1:]:
-        zh = zh * z
-        out += c.real * zh.real - c.imag * zh.imag
+def _harmonic_sum(mesh_rev: np.ndarray, pm, amps: np.ndarray, phases: np.ndarray, a_mod) -> np.ndarray:
+    """``a_mod x sum_h amps_h cos(h (2 pi mesh_rev + pm) + phases_h)``, float32."""
+    arg = _TWO_PI32 * mesh_rev
+    if pm is not None:
+        arg += pm
+    out = _F32(amps[0]) * np.cos(arg + _F32(phases[0]))
+    for h in range(1, len(amps)):
+        out += _F32(amps[h]) * np.cos(_F32(h + 1) * arg + _F32(phases[h]))
     if a_mod is not None:
         out *= a_mod
     return out
