@@ -9,6 +9,7 @@ from dsp.spectrum import (
     WINDOWS,
     amplitude_spectrum,
     band_rms,
+    band_spectrum_from_rfft,
     integrate_spectrum,
     power_spectral_density,
     rfft_full,
@@ -227,3 +228,43 @@ def test_validation_messages_name_the_value():
         amplitude_spectrum(x, 0.0)
     with pytest.raises(AnalysisError, match="non-finite"):
         amplitude_spectrum(np.array([1.0, np.nan, 2.0]), FS)
+
+
+@pytest.mark.parametrize("n", [1000, 1001])
+@pytest.mark.parametrize("scaling", ["peak", "rms"])
+def test_spectrum_from_rfft_scaling_and_edges(n, scaling):
+    rng = np.random.default_rng(n)
+    x = rng.standard_normal(n) + 0.7 + 0.3 * np.cos(np.pi * np.arange(n))  # DC and Nyquist content
+    full = rfft_full(x, FS)
+    for window in ("hann", "flattop", "rectangular"):
+        got = spectrum_from_rfft(full, window=window, scaling=scaling)
+        ref = amplitude_spectrum(x, FS, window=window, detrend=False, scaling=scaling)
+        np.testing.assert_allclose(got.amplitude, ref.amplitude, rtol=1e-9, atol=1e-12)
+        assert got.enbw_hz == pytest.approx(ref.enbw_hz, rel=1e-12)  # Harris 1978 ENBW, closed form vs sum
+        # zoom bands touching DC and Nyquist are slices of the same lines
+        for center in (0.0, FS / 2):
+            z = zoom_spectrum(full, None, center, 20.0, window=window, scaling=scaling)
+            k0 = int(round(z.freq_hz[0] / z.resolution_hz))
+            np.testing.assert_allclose(z.amplitude, got.amplitude[k0:k0 + z.amplitude.size], rtol=1e-12)
+
+
+def test_band_spectrum_from_rfft_tone_and_noise_levels():
+    fs, n = 1000.0, 100_000  # 0.01 Hz lines
+    rng = np.random.default_rng(17)
+    t = np.arange(n) / fs
+    noise = rng.standard_normal(n)
+    x = noise + 3.0 * np.sin(2 * np.pi * 123.4567 * t)
+    full = rfft_full(x, fs)
+    b = band_spectrum_from_rfft(full, 0.5)
+    assert b.resolution_hz == pytest.approx(0.5) and b.enbw_bins == pytest.approx(1.0)
+    k = int(np.argmin(np.abs(b.freq_hz - 123.5)))
+    # a tone inside one band reads its amplitude, no scalloping (Parseval within the band)
+    assert b.amplitude[k] == pytest.approx(3.0, rel=0.01)
+    # whole-band power equals the signal power (Parseval; Hann window power normalised by its ENBW)
+    assert band_rms(b, 0, fs / 2) == pytest.approx(np.sqrt(np.mean((x - x.mean()) ** 2)), rel=0.02)
+    # noise lines read ENBW (1.5 bins for Hann, Harris 1978 Table I) below a Welch spectrum of equal resolution
+    welch = amplitude_spectrum(noise, fs, nperseg=2000, scaling="rms")
+    band_noise = band_spectrum_from_rfft(rfft_full(noise, fs), 0.5, scaling="rms")
+    sel = (welch.freq_hz > 10) & (welch.freq_hz < 490)
+    ratio = np.mean(welch.amplitude[sel] ** 2) / np.mean(band_noise.amplitude[1:-1][sel[1:-1]] ** 2)
+    assert ratio == pytest.approx(1.5, rel=0.05)  # Harris 1978, Table I: Hann ENBW = 1.5 bins
