@@ -49,7 +49,7 @@ from typing import Any
 
 import numpy as np
 
-from .errors import AnalysisError, GearbenchError, ModelError, Problem, RecordingError
+from .errors import AnalysisError, ModelError, Problem, RecordingError
 
 FAULT_KINDS = ("tooth", "wear", "eccentricity", "outer-race", "inner-race", "rolling-element")
 SEVERITIES = ("mild", "severe")
@@ -823,4 +823,4 @@ def write_simulation(sim: Simulation, path, train, *, scale: float | None = None
 
 
 __all__ = ["Fault", "Simulation", "simulate", "write_simulation", "bearing_orders",
-           "FAULT_KINDS", "SEVERITIES", "SPEEDS", "GearbenchError"]
+           "FAULT_KINDS", "SEVERITIES", "SPEEDS"]

@@ -133,6 +133,47 @@ def test_sequentially_phased_planets_suppress_the_mesh_fundamental():
     assert at_fm < 0.1 * amp[np.argmin(np.abs(freq - strongest))]
 
 
+def test_sun_tooth_fault_meets_the_planets_at_the_sun_fault_frequency():
+    # Domain reference 1.5 check: Zs 20, Zp 30, Zr 80, 4 planets, sun 25 Hz -> sun fault 80 Hz.
+    train = GearTrain(tach=Tach(shaft="sun"), shafts=(Shaft("sun"), Shaft("carrier")),
+                      planetary=(Planetary("p", "sun", 20, 30, 4, 80, "carrier"),))
+    sim = simulate(train, rpm=1500, duration_s=1.0, fs=8192.0, seed=6,
+                   faults=[Fault("tooth", "sun", tooth=3, severity="severe")])
+    intervals = np.diff(sim.fault_events_s[0])
+    # Feng & Zuo 2012 (from memory), domain reference 1.5: f_sun = N_p (f_s - f_c) = 80 Hz
+    assert np.allclose(intervals, 1 / 80.0, rtol=1e-6)
+
+
+def test_eccentricity_gives_first_sidebands_at_the_shaft_rate():
+    fs = 8192.0
+    healthy = simulate(one_stage(), rpm=1500, duration_s=4.0, fs=fs, seed=8)
+    ecc = simulate(one_stage(), rpm=1500, duration_s=4.0, fs=fs, seed=8,
+                   faults=[Fault("eccentricity", "mid", severity="severe")])
+    f_mid = 25.0 * 20 / 61
+    ratios = []
+    for sim in (healthy, ecc):
+        freq, amp = amplitude_spectrum(sim.acceleration_g, fs)
+        gmf = amp[np.abs(freq - 500) < 0.5].max()
+        sb = max(amp[np.abs(freq - (500 + k * f_mid)) < 0.3].max() for k in (-1, 1))
+        ratios.append(sb / gmf)
+    # Randall 2011 (from memory): eccentricity amplitude-modulates the mesh at the shaft
+    # rate; AM of depth m gives first sidebands near m/2 of the carrier (0.45 -> ~0.2)
+    assert ratios[0] < 0.06
+    assert 0.12 < ratios[1] < 0.4
+
+
+def test_wear_raises_the_higher_mesh_harmonics():
+    fs = 8192.0
+    ratios = []
+    for faults in ((), (Fault("wear", "in", severity="severe"),)):
+        sim = simulate(one_stage(), rpm=1500, duration_s=2.0, fs=fs, seed=9, faults=faults)
+        freq, amp = amplitude_spectrum(sim.acceleration_g, fs)
+        ratios.append(amp[np.abs(freq - 1000) < 1].max() / amp[np.abs(freq - 500) < 1].max())
+    # Randall 2011 (from memory): distributed wear shows first as growth of the higher
+    # mesh harmonics relative to the fundamental
+    assert ratios[1] > 2.5 * ratios[0]
+
+
 # ---------------------------------------------------------------------------
 # Time-synchronous average of the faulty shaft
 # ---------------------------------------------------------------------------
