@@ -35,6 +35,7 @@ def add_arguments(parser) -> None:
     parser.add_argument("--model", metavar="M", help="model file (default: the .toml with the same name beside the recording)")
     parser.add_argument("--screenshot", metavar="PATH", help="save the window as PNG when every view is drawn, then exit")
     parser.add_argument("--view", choices=VIEWS, help="view to show first")
+    parser.add_argument("--shaft", metavar="NAME", help="shaft to select first (default: the shaft the tach watches)")
     parser.add_argument("--size", metavar="WxH", default="1600x1000", help="window size in pixels (default 1600x1000)")
     parser.add_argument("--timing", action="store_true", help=argparse.SUPPRESS)
 
@@ -116,6 +117,12 @@ def run(args) -> int:
     def start() -> None:
         timer.mark("first_paint")
         window.open_recording(recording, model)
+        if args.shaft:
+            names = window.session.model.shaft_names() if window.session.model is not None else ()
+            if args.shaft not in names:
+                finish(2, f"--shaft {args.shaft!r} is not a shaft of the model; choose one of: {', '.join(names)}")
+                return
+            window.session.select_shaft(args.shaft)
 
     def shown(_analysis) -> None:
         timer.mark("analysis_done")

@@ -13,7 +13,7 @@ from typing import Any
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt
-from PySide6.QtWidgets import QHBoxLayout, QLabel, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QHBoxLayout, QLabel, QSizePolicy, QVBoxLayout, QWidget
 
 from workbench import theme
 from workbench.session import Session, SessionEvent
@@ -42,6 +42,9 @@ class AnalysisView(QWidget):
         self._layout.addLayout(self.controls)
         self.caption = QLabel("")
         self.caption.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        # long captions must not widen the window: they are cut at the right instead
+        self.caption.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)
+        self.caption.setAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
         self._unsubscribe = session.subscribe(self._on_event, self.listens_to)
         self.destroyed.connect(lambda *_: self._unsubscribe())
 
@@ -56,8 +59,7 @@ class AnalysisView(QWidget):
         return plot
 
     def finish_controls(self) -> None:
-        self.controls.addStretch(1)
-        self.controls.addWidget(self.caption)
+        self.controls.addWidget(self.caption, 1)
 
     def _on_event(self, event: SessionEvent) -> None:
         if self.analysis is not None:

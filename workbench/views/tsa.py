@@ -112,7 +112,7 @@ class TsaView(AnalysisView):
         bottom = lo - 0.05 * span - max(len(ticks), 1) * row
         self.plot.setYRange(bottom, hi + 0.05 * span, padding=0)
         self.plot.setXRange(0, 360 + (55 if ticks else 0), padding=0.01)
-        gears = ", ".join(f"<span style='color:{c}'>&#9646; {html.escape(str(name))} ({teeth} teeth)</span>"
+        gears = ", ".join(f"<span style='color:{c}'>&#9646; {html.escape(str(name))}</span>"
                           for (name, teeth, _), c in zip(ticks, colours))
         self.caption.setText(f"{html.escape(str(shaft))}: <b>{item.n_revs} revolutions averaged</b>, "
                              f"{item.samples_per_rev} samples per revolution" + (f"; tooth ticks: {gears}" if gears else ""))

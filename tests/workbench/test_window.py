@@ -1,0 +1,240 @@
+"""Tests of the workbench window on the bundled demo (pytest-qt, offscreen).
+
+The demo ``03_broken_tooth`` is an input shaft (tach) driving a 23/71 pair, then a
+planetary stage with a 22-tooth sun on the intermediate shaft.
+"""
+
+from __future__ import annotations
+
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+from PySide6.QtCore import QSettings
+
+import workbench
+from workbench import theme
+from workbench.main_window import MainWindow
+from workbench.results_panel import SUSPECTS_TITLE
+
+DEMO = Path(workbench.__file__).resolve().parents[1] / "demo_recordings" / "03_broken_tooth.flac"
+TIMEOUT_MS = 60_000
+
+
+@pytest.fixture
+def window(qtbot, tmp_path):
+    theme.configure_pyqtgraph()
+    store = QSettings(str(tmp_path / "settings.ini"), QSettings.Format.IniFormat)
+    w = MainWindow(settings_store=store)
+    qtbot.addWidget(w)
+    w.resize(1400, 900)
+    w.show()
+    yield w
+    w.runner.shutdown()
+
+
+def open_demo(qtbot, window, path=DEMO):
+    with qtbot.waitSignal(window.analysis_shown, timeout=TIMEOUT_MS):
+        window.open_recording(path)
+    return window.analysis
+
+
+def set_cell(window, section, row, key, text):
+    """Type into one cell of the model form the way an edit arrives (itemChanged)."""
+    table = window.form.tables[section]
+    table.table.item(row, table.column_index(key)).setText(text)
+
+
+def table_row(window, label):
+    table = window.frequency_panel.view.table
+    return next(r for r in table.rows if r.label == label)
+
+
+def test_demo_opens_with_every_view_drawn(qtbot, window):
+    analysis = open_demo(qtbot, window)
+    assert {name: view.has_data() for name, view in window.views.items()} == dict.fromkeys(window.views, True)
+    assert window.session.selected_shaft == "input"          # the tach shaft comes first
+    assert window.shaft_combo.currentText() == "input"
+    # GMF = Z x shaft rate (domain reference 1.1): 23 teeth on the input shaft
+    input_hz = table_row(window, "input shaft").hz
+    assert table_row(window, "stage 1 GMF").hz == pytest.approx(23 * input_hz, rel=1e-9)
+    # 1 Hz = 60 cycles per minute (common practice, no source)
+    spectrum = window.views["spectrum"]
+    x_hz, _ = spectrum.curve.getData()
+    window.session.set_view_options(spectrum_x="cpm")
+    x_cpm, _ = spectrum.curve.getData()
+    np.testing.assert_allclose(x_cpm, 60.0 * x_hz)
+    # orders of the selected shaft: the stage 1 GMF of the input shaft sits at order 23 (domain reference 1.1)
+    window.session.set_view_options(spectrum_x="order", spectrum_log_y=False)
+    gmf_marks = [m.value() for m in spectrum.marks if m.isVisible()]
+    assert gmf_marks[0] == pytest.approx(23.0, rel=1e-9)
+    x_ord, y = spectrum.curve.getData()
+    near = (x_ord > 22.5) & (x_ord < 23.5)
+    assert x_ord[near][np.argmax(y[near])] == pytest.approx(23.0, abs=0.05)   # the mesh line is at 23 orders
+    # the results panel reads as an aid, not a verdict
+    assert "not a verdict" in SUSPECTS_TITLE
+    assert window.results.overall.rowCount() >= 5
+    assert window.results.tsa.rowCount() == len(analysis.tsa) == 3
+    # recent files remember the recording and its model
+    recent = window._recent()
+    assert str(DEMO.resolve()) in recent and str(DEMO.with_suffix(".toml").resolve()) in recent
+
+
+def test_switching_shaft_changes_the_tsa(qtbot, window):
+    analysis = open_demo(qtbot, window)
+    tsa = window.views["tsa"]
+    window.session.set_current_view("tsa")
+    assert window.tabs.currentWidget() is tsa
+    ticks_in = tsa.tooth_ticks()
+    revs_in = analysis.tsa_for("input").n_revs
+    assert [teeth for _, teeth, _ in ticks_in] == [23]
+    np.testing.assert_allclose(np.diff(ticks_in[0][2]), 360.0 / 23)   # one tick per tooth: 360/Z deg apart
+    assert f"{revs_in} revolutions averaged" in tsa.caption.text()
+    window.shaft_combo.setCurrentText("intermediate")                    # the analyst picks a shaft
+    assert window.session.selected_shaft == "intermediate"
+    ticks_int = tsa.tooth_ticks()
+    assert sorted(teeth for _, teeth, _ in ticks_int) == [22, 71]        # the wheel of stage 1 and the sun
+    revs_int = analysis.tsa_for("intermediate").n_revs
+    # the intermediate shaft turns 23/71 as fast, so it makes 23/71 as many revolutions (domain reference 1.1)
+    assert revs_int == pytest.approx(revs_in * 23 / 71, abs=2)
+    assert f"{revs_int} revolutions averaged" in tsa.caption.text()
+    x, y = tsa.curve.getData()
+    assert x[0] == 0.0 and x[-1] < 360.0 and len(x) == analysis.tsa_for("intermediate").samples_per_rev
+    np.testing.assert_array_equal(y, analysis.tsa_for("intermediate").average)
+    # the other views follow the same selection
+    assert window.views["speed"].plot.getAxis("left").labelText.startswith("intermediate")
+    rahmonic_ms = window.views["cepstrum"].rahmonics_ms()
+    assert rahmonic_ms[0] == pytest.approx(1000.0 / table_row(window, "intermediate shaft").hz)  # 1/f_r (Randall 2017)
+
+
+def test_editing_a_tooth_count_updates_table_and_views(qtbot, window):
+    open_demo(qtbot, window)
+    input_hz = table_row(window, "input shaft").hz
+    with qtbot.waitSignal(window.analysis_shown, timeout=TIMEOUT_MS):
+        set_cell(window, "meshes", 0, "driven_teeth", "70")
+    # ratio of a parallel pair: f_driven = f_driver * Z_driver / Z_driven (domain reference 1.1)
+    assert table_row(window, "intermediate shaft").hz == pytest.approx(input_hz * 23 / 70, rel=1e-3)
+    assert window.session.model.meshes[0].driven_teeth == 70
+    window.session.select_shaft("intermediate")
+    assert sorted(t for _, t, _ in window.views["tsa"].tooth_ticks()) == [22, 70]
+
+
+def test_bad_value_shows_its_message_and_keeps_the_last_result(qtbot, window):
+    analysis = open_demo(qtbot, window)
+    generation = window.runner.generation
+    with qtbot.waitSignal(window.form.problems_changed, timeout=5000,
+                          check_params_cb=lambda ps: any(p.severity == "error" for p in ps)):
+        set_cell(window, "meshes", 0, "driven_teeth", "0")
+    qtbot.wait(2 * 250)                                   # longer than the re-run pause
+    text = window.banner.plain_text()
+    assert "meshes[0].driven_teeth" in text and "last good result stays" in text
+    assert window.banner.isVisible()
+    assert window.analysis is analysis                    # nothing replaced it
+    assert window.runner.generation == generation         # and nothing was re-run
+    assert all(view.has_data() for view in window.views.values())
+    with qtbot.waitSignal(window.form.problems_changed, timeout=5000,
+                          check_params_cb=lambda ps: not any(p.severity == "error" for p in ps)):
+        set_cell(window, "meshes", 0, "driven_teeth", "71")
+    assert "meshes[0].driven_teeth" not in window.banner.plain_text()
+    qtbot.wait(2 * 250)
+    assert window.runner.generation == generation         # the good model is the one analysed: no re-run
+
+
+def test_cancel_keeps_the_last_result(qtbot, window):
+    analysis = open_demo(qtbot, window)
+    clicked = []
+
+    def click_cancel(*_args):
+        if not clicked:
+            clicked.append(True)
+            window.cancel_button.click()
+
+    window.runner.progress.connect(click_cancel)
+    with qtbot.waitSignal(window.runner.cancelled, timeout=TIMEOUT_MS):
+        window.session.set_time_range((2.0, 20.0))       # a new analysis starts after the pause
+    assert clicked
+    assert window.analysis is analysis
+    assert "cancelled" in window.status_label.text()
+    assert not window.cancel_button.isEnabled()
+
+
+def test_time_range_limits_the_analysis(qtbot, window):
+    open_demo(qtbot, window)
+    revs_whole = window.analysis.tsa_for("input").n_revs
+    with qtbot.waitSignal(window.analysis_shown, timeout=TIMEOUT_MS):
+        window.views["waveform"].region.setRegion((5.0, 15.0))
+        window.views["waveform"].region.sigRegionChangeFinished.emit(window.views["waveform"].region)
+    assert window.session.time_range_s == pytest.approx((5.0, 15.0))
+    # 10 s at the demo's 1485 rpm hold 1485/60 x 10 = 247.5 revolutions; whole revolutions between
+    # tach pulses inside the range are averaged, so a few are lost at the edges (common practice, no source)
+    assert 240 <= window.analysis.tsa_for("input").n_revs <= 248
+    assert window.analysis.tsa_for("input").n_revs < revs_whole / 2
+
+
+def test_corrupt_file_gives_a_message_not_a_crash(qtbot, window, tmp_path):
+    open_demo(qtbot, window)
+    bad = tmp_path / "broken.flac"
+    bad.write_bytes(np.random.default_rng(7).bytes(5000))
+    shutil.copy(DEMO.with_suffix(".toml"), bad.with_suffix(".toml"))
+    with qtbot.waitSignal(window.analysis_failed, timeout=TIMEOUT_MS) as blocker:
+        window.open_recording(bad)
+    assert "broken.flac" in blocker.args[0]
+    assert "broken.flac" in window.banner.plain_text()
+    assert window.analysis is None                        # the old recording's result is not shown for the new one
+    assert not any(view.has_data() for view in window.views.values())
+    assert window.isVisible()
+
+
+def test_recording_without_model_says_what_to_enter_first(qtbot, window, tmp_path):
+    lonely = tmp_path / "lonely.flac"
+    shutil.copy(DEMO, lonely)
+    window.open_recording(lonely)
+    text = window.banner.plain_text()
+    assert "sensor channel" in text and "tach channel or a nominal speed" in text and "shafts" in text
+    assert window.form.model() is None
+    assert not window.runner.is_busy()
+
+
+def test_clicking_a_suspect_selects_its_shaft_and_view(qtbot, window):
+    analysis = open_demo(qtbot, window)
+    assert analysis.suspects, "the broken-tooth demo should rank at least one suspect"
+    first = analysis.suspects[0]
+    item = window.results.suspects.item(0)
+    window.results.suspects.itemClicked.emit(item)
+    shaft = window.results.shaft_of(first.component)
+    if shaft:
+        assert window.session.selected_shaft == shaft
+    if first.view:
+        assert window.tabs.currentWidget() is window.views[first.view]
+
+
+def test_frequency_table_copies_as_tab_separated_text(qtbot, window):
+    open_demo(qtbot, window)
+    text = window.frequency_panel.view.copy_text(selected_only=False)
+    lines = text.strip().split("\n")
+    assert lines[0].split("\t")[:3] == ["Label", "Hz", "CPM"]
+    row = next(line.split("\t") for line in lines if line.startswith("stage 1 GMF\t"))
+    assert float(row[2]) == pytest.approx(60 * float(row[1]), rel=1e-6)   # 1 Hz = 60 CPM
+
+
+def test_command_line_screenshot_and_bad_file(tmp_path):
+    png = tmp_path / "w.png"
+    env = {"QT_QPA_PLATFORM": "offscreen", "PATH": "/usr/bin:/bin"}
+    run = subprocess.run([sys.executable, "-m", "workbench", "open", str(DEMO), "--screenshot", str(png),
+                          "--view", "tsa", "--size", "1300x800"], capture_output=True, text=True, env=env, timeout=120)
+    assert run.returncode == 0, run.stderr
+    from PySide6.QtGui import QImage
+
+    image = QImage(str(png))
+    assert (image.width(), image.height()) == (1300, 800)
+    bad = tmp_path / "bad.flac"
+    bad.write_bytes(b"\x00" * 4096)
+    shutil.copy(DEMO.with_suffix(".toml"), bad.with_suffix(".toml"))
+    run = subprocess.run([sys.executable, "-m", "workbench", "open", str(bad), "--screenshot", str(png)],
+                         capture_output=True, text=True, env=env, timeout=120)
+    assert run.returncode == 2
+    lines = [line for line in run.stderr.splitlines() if line.startswith("gearbench:")]
+    assert len(lines) == 1 and "bad.flac" in lines[0]
