@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import hashlib
 import os
+import threading
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -100,6 +101,30 @@ def _sha256_of_file(path: str) -> str:
         return hashlib.file_digest(fh, "sha256").hexdigest()
 
 
+class _Hasher(threading.Thread):
+    """SHA-256 of a file, computed in a background thread."""
+
+    def __init__(self, path: str):
+        super().__init__(name="gearbench-sha256", daemon=True)
+        self.path = path
+        self._digest: str | None = None
+        self._error: OSError | None = None
+
+    def run(self) -> None:
+        try:
+            self._digest = _sha256_of_file(self.path)
+        except OSError as exc:
+            self._error = exc
+
+    def result(self) -> str:
+        if self._error is not None:
+            raise RecordingError(
+                f"cannot read recording {self.path} ({self._error.strerror}); check its permissions"
+            ) from self._error
+        assert self._digest is not None
+        return self._digest
+
+
 def read_recording(path) -> Recording:
     """Read a recording file of any format and channel count that soundfile reads.
 
@@ -128,11 +153,10 @@ def read_recording(path) -> Recording:
         raise RecordingError(f"recording {name} is a folder, not a file; give the audio file inside it")
     if p.stat().st_size == 0:
         raise RecordingError(f"recording {name} is an empty file (0 bytes); record or copy it again")
-    try:
-        sha256 = _sha256_of_file(name)
-    except OSError as exc:
-        raise RecordingError(f"cannot read recording {name} ({exc.strerror}); check its permissions") from exc
-
+    # Hash the file bytes in a second thread while the first decodes (hashlib and
+    # libsndfile both release the GIL), so the SHA-256 costs little wall time.
+    hashing = _Hasher(name)
+    hashing.start()
     try:
         with sf.SoundFile(name, "r") as fh:
             n_channels = int(fh.channels)
@@ -150,6 +174,9 @@ def read_recording(path) -> Recording:
         raise RecordingError(
             f"cannot decode recording {name} ({exc}); it is corrupt or truncated - export it again as WAV or FLAC"
         ) from exc
+    finally:
+        hashing.join()
+    sha256 = hashing.result()
 
     n_frames = data.shape[1]
     if n_frames == 0 or n_channels == 0:

@@ -111,7 +111,7 @@ def _levels(x: np.ndarray) -> tuple[float, float]:
     if not (np.isfinite(mn) and np.isfinite(mx)):
         return float("nan"), float("nan")
     mid = 0.5 * (mn + mx)
-    step = max(1, x.size // 400_000)
+    step = max(1, x.size // 100_000)
     sub = x[::step]
     low = sub[sub < mid]
     high = sub[sub >= mid]
@@ -122,7 +122,7 @@ def _levels(x: np.ndarray) -> tuple[float, float]:
 
 def _entries(mask: np.ndarray) -> np.ndarray:
     """Indices i where ``mask`` turns True (``mask[i]`` and not ``mask[i-1]``); 0 if it starts True."""
-    idx = np.flatnonzero(mask[1:] & ~mask[:-1]) + 1
+    idx = np.flatnonzero(mask[1:] > mask[:-1]) + 1     # True > False only where it turns True
     if mask.size and mask[0]:
         idx = np.concatenate(([0], idx))
     return idx
@@ -150,7 +150,8 @@ def _schmitt_edges(y: np.ndarray, threshold: float, hysteresis: float) -> np.nda
         return np.empty(0)
     # The threshold crossing that belongs to each edge: the last j < edge with
     # y[j] <= threshold < y[j+1] (it exists: the signal was below the band before).
-    cross = np.flatnonzero((y[:-1] <= threshold) & (y[1:] > threshold))
+    over = y > threshold
+    cross = np.flatnonzero(over[1:] > over[:-1])
     pos = np.searchsorted(cross, edge_idx - 1, side="right") - 1
     ok = pos >= 0
     j = cross[pos[ok]]

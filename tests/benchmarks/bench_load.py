@@ -16,6 +16,7 @@ from __future__ import annotations
 import json
 import tempfile
 import time
+import tracemalloc
 from pathlib import Path
 
 import numpy as np
@@ -58,6 +59,16 @@ def best_of(fn, repeats: int = REPEATS) -> float:
     return best
 
 
+def peak_mb(fn) -> float:
+    """Peak traced memory (numpy buffers included) while ``fn`` runs, MB."""
+    tracemalloc.start()
+    try:
+        fn()
+        return tracemalloc.get_traced_memory()[1] / 1e6
+    finally:
+        tracemalloc.stop()
+
+
 def main() -> dict:
     with tempfile.TemporaryDirectory() as folder:
         path = Path(folder) / "bench_load.flac"
@@ -77,14 +88,22 @@ def main() -> dict:
         decode()
         t_decode = best_of(decode)
         t_load = best_of(load)
+        # Memory: soundfile's frame-major array, the same made channel-major (what a
+        # (n_channels, n_frames) layout costs without blocks), and read_recording.
+        mem_decode = peak_mb(decode)
+        mem_decode_t = peak_mb(lambda: np.ascontiguousarray(sf.read(str(path), dtype="float32")[0].T))
+        mem_read = peak_mb(lambda: read_recording(path))
     ratio = t_load / t_decode
     print(f"file: {SECONDS:g} s, {FS} Hz, 2 channels, PCM_24 FLAC, {size_mb:.1f} MB")
     print(f"tach: {pulses.n_found} pulses, mean {prof.mean_hz:.4f} Hz ({prof.min_hz:.3f} to {prof.max_hz:.3f})")
     print(f"decode (soundfile.read, float32): {t_decode * 1e3:.1f} ms")
     print(f"load (read_recording + detect_pulses + speed_profile): {t_load * 1e3:.1f} ms")
     print(f"ratio {ratio:.3f} (target <= {TARGET})")
+    print(f"peak memory: soundfile.read {mem_decode:.1f} MB, soundfile.read + channel-major copy "
+          f"{mem_decode_t:.1f} MB, read_recording {mem_read:.1f} MB (data {rec.data.nbytes / 1e6:.1f} MB)")
     result = {"bench": "load", "decode_s": round(t_decode, 4), "load_s": round(t_load, 4),
-              "ratio": round(ratio, 3), "target": TARGET}
+              "ratio": round(ratio, 3), "target": TARGET, "read_peak_mb": round(mem_read, 1),
+              "decode_peak_mb": round(mem_decode, 1)}
     print(json.dumps(result))
     return result
 
