@@ -54,7 +54,7 @@ NAN = float("nan")
 def _vec(x, name: str = "x") -> np.ndarray:
     a = np.asarray(x, dtype=np.float64)
     if a.ndim != 1:
-        a = a.reshape(-1)
+        raise AnalysisError(f"{name} must be a 1-D signal, got an array of shape {a.shape}; pass one record.")
     if a.size == 0:
         raise AnalysisError(f"{name} is empty; an indicator needs at least one sample.")
     if not np.isfinite(a).all():

@@ -432,8 +432,7 @@ def amplitude_spectrum(
 
     dtype = x.dtype
     w = window_values(window, nperseg, dtype=dtype)
-    s1 = float(np.sum(w, dtype=np.float64))
-    s2 = float(np.dot(w.astype(np.float64), w.astype(np.float64)))
+    s1, s2 = _cosine_sums(window, nperseg)
     n_bins = nperseg // 2 + 1
     scale = _one_sided_scale(n_bins, nperseg, s1, scaling)
 
@@ -510,20 +509,22 @@ def _windowed_bins(full: FullSpectrum, window: str, k0: int = 0, k1: int | None 
     m = len(coeffs) - 1
 
     def bins(a: int, b: int) -> np.ndarray:
-        """X at indices a..b-1, continued by conjugate symmetry outside 0..nb-1."""
+        """X at indices a..b-1; outside 0..nb-1, X[i] = X[i mod n] = conj(X[n - i mod n])."""
         lo, hi = max(a, 0), min(b, nb)
+
+        def wrapped(idx: np.ndarray) -> np.ndarray:
+            j = idx % n
+            mirror = j >= nb
+            vals = X[np.where(mirror, n - j, j)]
+            return np.where(mirror, np.conj(vals), vals)
+
         parts = []
         if a < 0:
-            idx = np.arange(a, min(b, 0)) % n
-            idx = np.where(idx >= nb, n - idx, idx)
-            parts.append(np.conj(X[idx]))
+            parts.append(wrapped(np.arange(a, min(b, 0))))
         if hi > lo:
             parts.append(X[lo:hi])
         if b > nb:
-            idx = np.arange(max(a, nb), b) % n
-            mirror = idx >= nb
-            vals = X[np.where(mirror, n - idx, idx)]
-            parts.append(np.where(mirror, np.conj(vals), vals))
+            parts.append(wrapped(np.arange(max(a, nb), b)))
         return parts[0] if len(parts) == 1 else np.concatenate(parts)
 
     ext = bins(k0 - m, k1 + m)
@@ -546,8 +547,12 @@ def _cosine_sums(window: str, n: int) -> tuple[float, float]:
     a = WINDOWS[window]
     if n <= 2 * (len(a) - 1):
         w = window_values(window, n)
-        return float(w.sum()), float(np.dot(w, w))
-    return a[0] * n, n * (a[0] ** 2 + sum(c * c for c in a[1:]) / 2.0)
+        s1, s2 = float(w.sum()), float(np.dot(w, w))
+    else:
+        s1, s2 = a[0] * n, n * (a[0] ** 2 + sum(c * c for c in a[1:]) / 2.0)
+    if not s1 > 1e-12 * n:
+        raise AnalysisError(f"a {window} window of {n} samples sums to zero; use more samples or the rectangular window.")
+    return s1, s2
 
 
 def _amplitude_from_bins(xw: np.ndarray, k0: int, n: int, s1: float, scaling: str) -> np.ndarray:

@@ -129,3 +129,8 @@ def test_bad_input_raises():
         kurtosis([1.0, np.inf, 2.0])
     with pytest.raises(AnalysisError, match="order="):
         order_amplitude(np.ones(16), 9)
+
+
+def test_two_dimensional_input_is_refused():
+    with pytest.raises(AnalysisError, match="1-D"):
+        kurtosis(np.ones((4, 4)))
