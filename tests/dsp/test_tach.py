@@ -8,6 +8,7 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings, strategies as st
 
 from dsp.errors import TachError
 from dsp.tach import (
@@ -275,9 +276,6 @@ def test_from_knots_rejects_bad_knots():
         SpeedProfile.from_knots([0.0, 1.0, 0.5], [0.0, 1.0, 2.0], shaft="a")
     with pytest.raises(TachError):
         SpeedProfile.from_knots([0.0], [0.0], shaft="a")
-
-
-from hypothesis import given, settings, strategies as st  # noqa: E402
 
 
 @settings(max_examples=40, deadline=None)
