@@ -14,7 +14,6 @@ from PySide6.QtWidgets import (
     QAbstractItemView, QHBoxLayout, QHeaderView, QLabel, QPushButton, QTableView, QVBoxLayout, QWidget,
 )
 
-from . import model_form_refguard  # noqa: F401  (PySide6 6.12 refcount leak; see its docstring)
 
 HEADERS = ("Label", "Hz", "CPM", "Order", "Owner", "Kind")
 _NUMERIC = (1, 2, 3)

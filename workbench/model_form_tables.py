@@ -4,12 +4,8 @@ Each :class:`ElementTable` is a :class:`QTableWidget` whose cells hold the text 
 analyst typed, with Add / Remove / Move up / Move down buttons.  Shaft columns and
 fixed-choice columns edit through a combo box (:class:`ChoiceDelegate`).
 
-Note on PySide6 6.12.0 with Python 3.11 (measured here): every call of a Qt method
-that returns nothing, and every read of an unset item role or property, lowers the
-reference count of ``None`` by one without raising it, and the process aborts
-("none_dealloc") once it reaches zero.  This module therefore sets every role it
-reads when it creates an item, and re-marks only the cells whose mark changed;
-:mod:`workbench.model_form_refguard` neutralises the leak itself.
+Every role that is read is set when an item is created, and only the cells whose
+mark changed are re-marked, so an edit touches few items.
 """
 
 from __future__ import annotations
@@ -23,7 +19,6 @@ from PySide6.QtWidgets import (
     QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget,
 )
 
-from . import model_form_refguard  # noqa: F401  (see its docstring)
 from .model_form_fields import SECTION_COLUMNS, SECTION_NOUNS, Column, format_value
 
 ERROR_BRUSH = QBrush(QColor(255, 205, 205))
