@@ -236,45 +236,43 @@ def _overall(x: np.ndarray, velocity_rms: float, quality) -> dict[str, Any]:
     }
 
 
-def _shaft_tsa(x, fs, profile, name: str, order: float, table, model, settings: Settings) -> ShaftTSA:
-    """TSA of one shaft with residual, difference and indicators."""
+def _derived(res, name: str, table, model, settings: Settings) -> ShaftTSA:
+    """Residual, difference and indicators of one shaft's TSA (``dsp.tsa.TSA``)."""
     from . import indicators as ind
     from .kinematics import gears_on_shaft
-    from .tsa import difference_signal, regular_signal, residual_signal, tsa
+    from .tsa import difference_signal, regular_signal, residual_signal
 
     gears = gears_on_shaft(model, name)
     teeth = tuple((g.label, int(g.teeth)) for g in gears)
     # a sun gear meshes at Z_s (f_sun - f_carrier): not synchronous with its own shaft
     mesh_teeth = tuple(sorted({int(g.teeth) for g in gears if getattr(g, "role", "") != "sun"}))
-    res = tsa(x, fs, profile, shaft_order=order, shaft=name, samples_per_rev=settings.tsa_samples_per_rev)
     avg = np.asarray(res.average)
     spr = int(res.samples_per_rev)
-    kw = dict(mesh_teeth=mesh_teeth, n_harmonics=settings.n_mesh_harmonics) if mesh_teeth else None
-    if kw:
-        residual = np.asarray(residual_signal(avg, **kw))
-        difference = np.asarray(difference_signal(avg, **kw))
-        regular = np.asarray(regular_signal(avg, **kw))
-    else:  # a shaft with no gear (should not happen in a valid model): plain mean removal
-        residual = avg - avg.mean()
+    if mesh_teeth:
+        residual = np.asarray(residual_signal(avg, mesh_teeth=mesh_teeth))
+        difference = np.asarray(difference_signal(avg, mesh_teeth=mesh_teeth))
+        regular = np.asarray(regular_signal(avg, mesh_teeth=mesh_teeth))
+    else:  # no gear turns synchronously with this shaft: remove the mean and the first orders
+        residual = np.asarray(residual_signal(avg, mesh_teeth=(spr // 2 + 1,)))
         difference = residual
-        regular = np.zeros_like(avg)
-    with np.errstate(all="ignore"):
-        values = {
-            "rms": ind.rms(avg),
-            "kurtosis": ind.kurtosis(avg),
-            "fm0": ind.fm0(avg, [h * z for z in mesh_teeth for h in range(1, settings.n_mesh_harmonics + 1)],
-                           samples_per_rev=spr) if mesh_teeth else math.nan,
-            "fm4": ind.fm4(difference),
-            "na4": ind.na4(residual),
-            "m6a": ind.m6a(difference),
-            "m8a": ind.m8a(difference),
-            "er": ind.energy_ratio(difference, regular),
-        }
+        regular = avg - residual - avg.mean()
+    h_max = settings.n_mesh_harmonics
+    mesh_orders = [h * z for z in mesh_teeth for h in range(1, h_max + 1) if h * z < spr // 2]
+    values = {
+        "rms": ind.rms(avg - avg.mean()),
+        "kurtosis": ind.kurtosis(avg),
+        "fm0": ind.fm0(avg, mesh_orders, samples_per_rev=spr) if mesh_orders else math.nan,
+        "fm4": ind.fm4(difference),
+        "na4": ind.na4(residual),
+        "m6a": ind.m6a(difference),
+        "m8a": ind.m8a(difference),
+        "er": ind.energy_ratio(difference, regular),
+    }
     values = {k: float(v) for k, v in values.items()}
     return ShaftTSA(
         shaft=name,
         shaft_hz=float(table.shaft_hz(name)),
-        shaft_order=float(order),
+        shaft_order=float(res.shaft_order),
         n_revs=int(res.n_revs),
         samples_per_rev=spr,
         angle_deg=_readonly(np.asarray(res.angle_deg)),
@@ -298,7 +296,8 @@ def _carriers(table, model):
         sun, car = p.sun_shaft, p.carrier_shaft
         # sun gear turns relative to the carrier; the carrier shows through planet passing
         rel = abs(orders[sun] - orders[car])
-        out.append(Carrier(p.name, p.mesh_hz / table.reference_hz, ((sun, rel), (car, orders[car]))))
+        out.append(Carrier(p.name, p.mesh_hz / table.reference_hz, ((sun, rel), (car, orders[car])),
+                           expected_owner=car))
     return out
 
 
@@ -334,6 +333,45 @@ def _envelope_peaks(freq_hz, amplitude, matches, n_peaks: int = 10) -> list[dict
             if h.clear:
                 labels[round(h.found_hz / df)] = f"{h.harmonic}x {m.label} ({m.component})"
     return [{"hz": float(f[i]), "amplitude": float(a[i]), "label": labels.get(int(i))} for i in sorted(top)]
+
+
+@dataclass(frozen=True)
+class _OrderSpectrum:
+    order: np.ndarray
+    amplitude: np.ndarray
+
+
+def _local_order_spectrum(x, fs, profile, *, max_order):
+    """Stand-in: linear-interpolation angular resampling + Hann rfft (until dsp.orders lands)."""
+    p = int(2 ** math.ceil(math.log2(2.2 * max_order)))
+    n_rev = int(profile.n_revs)
+    ang = np.arange(n_rev * p) / p
+    t = profile.time_s(ang) + profile.t_start_s * 0
+    y = np.interp(t, np.arange(x.size) / fs, x)
+    w = np.hanning(y.size + 1)[:-1]
+    amp = np.abs(np.fft.rfft((y - y.mean()) * w)) * 2 / w.sum()
+    order = np.fft.rfftfreq(y.size, 1 / p)
+    keep = order <= max_order
+    return _OrderSpectrum(order[keep], amp[keep])
+
+
+@dataclass(frozen=True)
+class _Cepstrum:
+    quefrency_s: np.ndarray
+    values: np.ndarray
+
+
+def _local_cepstrum(full):
+    c = np.fft.irfft(np.log(np.abs(full.X) + 1e-12 * np.abs(full.X).max()), n=full.n)
+    return _Cepstrum(np.arange(full.n // 2) / full.fs, c[: full.n // 2])
+
+
+def _local_rahmonic(ceps, q_s):
+    dq = ceps.quefrency_s[1]
+    i = int(round(q_s / dq))
+    seg = np.abs(ceps.values[max(i - 2, 1): i + 3])
+    ref = np.median(np.abs(ceps.values[max(i // 2, 1): 2 * i + 1]))
+    return float(np.clip((seg.max() / ref - 1) / 10, 0, 1)) if ref > 0 else 0.0
 
 
 # ---------------------------------------------------------------------------
@@ -477,7 +515,10 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
 
     # --- order spectrum ---------------------------------------------------
     step(0.2, "order spectrum")
-    from .orders import order_spectrum
+    try:
+        from .orders import order_spectrum
+    except ImportError:  # pragma: no cover - until dsp.orders lands
+        order_spectrum = _local_order_spectrum
 
     max_gmf_order = max([m.gmf_order for m in table.meshes] + [p.mesh_hz / table.reference_hz for p in table.planetary]
                         + [1.0])
@@ -488,19 +529,23 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
     ospec = order_spectrum(x, fs, profile, max_order=max_order)
 
     # --- TSA per shaft ----------------------------------------------------
+    from .tsa import tsa_shafts
+
     tsas: list[ShaftTSA] = []
-    names = [s.name for s in model.shafts]
-    for k, name in enumerate(names):
-        step(0.3 + 0.3 * k / max(len(names), 1), f"TSA of shaft {name}")
-        n_revs = profile.n_revs * orders[name] if profile.n_revs else (i1 - i0) / fs * table.shaft_hz(name)
-        revs_in_range = (i1 - i0) / fs * table.shaft_hz(name)
-        if min(n_revs, revs_in_range) < MIN_TSA_REVS:
+    eligible: dict[str, float] = {}
+    for name in [s.name for s in model.shafts]:
+        revs_in_range = profile.n_revs * orders[name]
+        if revs_in_range < MIN_TSA_REVS:
             warn.append(
                 f"short record: shaft {name} turns {revs_in_range:.1f} times in the range analysed, fewer than "
                 f"{MIN_TSA_REVS}; its TSA is skipped (analyse a longer record)."
             )
             continue
-        tsas.append(_shaft_tsa(x, fs, profile, name, orders[name], table, model, settings))
+        eligible[name] = orders[name]
+    for k, (name, order) in enumerate(eligible.items()):
+        step(0.3 + 0.3 * k / max(len(eligible), 1), f"TSA of shaft {name}")
+        res = tsa_shafts(x, fs, profile, {name: order}, samples_per_rev=settings.tsa_samples_per_rev)[0]
+        tsas.append(_derived(res, name, table, model, settings))
 
     # --- envelope ---------------------------------------------------------
     step(0.62, "envelope")
@@ -521,7 +566,10 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
 
     # --- cepstrum ---------------------------------------------------------
     step(0.75, "cepstrum")
-    from .cepstrum import cepstrum_from_rfft, rahmonic_strength
+    try:
+        from .cepstrum import cepstrum_from_rfft, rahmonic_strength
+    except ImportError:  # pragma: no cover - until dsp.cepstrum lands
+        cepstrum_from_rfft, rahmonic_strength = _local_cepstrum, _local_rahmonic
 
     ceps = cepstrum_from_rfft(full)
     ceps_support = {}

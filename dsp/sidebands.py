@@ -115,11 +115,17 @@ class Carrier:
     candidates : tuple of (str, float)
         ``(shaft name, spacing in reference orders)`` of every shaft that may
         modulate this mesh (the shafts carrying its gears).
+    expected_owner : str, optional
+        A shaft whose family is present in a healthy machine: the carrier of a
+        planetary stage, whose planets pass a fixed sensor once per carrier
+        turn each (McFadden & Smith 1985).  Families it owns are reported but
+        marked ``expected``.
     """
 
     mesh: str
     gmf_order: float
     candidates: tuple[tuple[str, float], ...]
+    expected_owner: str | None = None
 
 
 @dataclass(frozen=True)
@@ -148,6 +154,7 @@ class SidebandFamily:
     candidates: dict[str, float]
     evidence: tuple[str, ...]
     n_clear_by_candidate: dict[str, int] = field(default_factory=dict)
+    expected: bool = False          # the owner's family is normal (planet passing)
     tolerance_order: float = 0.0
     clear_db: float = CLEAR_DB
 
@@ -374,6 +381,11 @@ def measure_sidebands(
                     f"owner: shaft {owner} (score {scores[owner]:.2f}"
                     + (f" against {others}" if others else "") + ")."
                 )
+                if owner == carrier.expected_owner:
+                    evidence.append(
+                        f"this family is expected: planets passing the sensor modulate {carrier.mesh} "
+                        f"at the rate of shaft {owner} in a healthy machine too."
+                    )
             else:
                 why = (
                     "the carrier does not stand clear of the floor"
@@ -402,6 +414,7 @@ def measure_sidebands(
                     candidates=scores,
                     evidence=tuple(evidence),
                     n_clear_by_candidate=n_clear,
+                    expected=bool(owner is not None and owner == carrier.expected_owner),
                     tolerance_order=float(tolerance(c_order)),
                     clear_db=float(clear_db),
                 )

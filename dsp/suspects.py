@@ -60,25 +60,36 @@ KINDS = (
 
 # --- thresholds (lo, hi) of the ramps -------------------------------------------
 #: FM4 of a healthy gear is about 3 (Gaussian difference signal, Stewart 1977);
-#: the ramp from 3.5 to 6 is common practice, no source.
-FM4_RAMP = (3.5, 6.0)
+#: manufacturing errors and faults elsewhere in the train leak into it and
+#: commonly lift it to 4-5, so the ramp runs from 5 to 9 (common practice, no source).
+FM4_RAMP = (5.0, 9.0)
 #: NA4 is about 3 for a healthy gear (Zakrajsek et al. 1993); same ramp,
 #: common practice, no source.
-NA4_RAMP = (3.5, 6.0)
+NA4_RAMP = (5.0, 9.0)
 #: M6A is 15 for Gaussian data (Martin 1989, moment algebra); ramp common
 #: practice, no source.
-M6A_RAMP = (25.0, 80.0)
+M6A_RAMP = (50.0, 150.0)
+#: Above this FM4 an impulsive signal is taken as local damage even when the
+#: wear evidence is strong (common practice, no source).
+FM4_SURELY_LOCAL = (10.0, 30.0)
+#: Energy ratio rms(difference)/rms(regular) (Swansson 1980): a few percent for a
+#: healthy gear, rising with wear spread over the teeth (common practice, no source).
+ER_RAMP = (0.1, 0.3)
 #: First-order sideband level against its carrier, dB: healthy gears commonly
-#: stay below about -20 dB; wear brings them within a few dB (common practice,
-#: no source).
+#: stay below about -20 dB; eccentricity and wear bring them within a few dB
+#: (common practice, no source).
 SIDEBAND_RATIO_DB_RAMP = (-20.0, -8.0)
-#: Second mesh harmonic against the first: growth past 0.5 of the first is a
-#: wear pattern (common practice, no source).
-HARMONIC_GROWTH_RAMP = (0.5, 1.0)
+#: Second mesh harmonic against the first: growth past the first is a wear
+#: pattern (Randall 2011, gear chapter; thresholds common practice, no source).
+HARMONIC_GROWTH_RAMP = (0.6, 1.2)
 #: Envelope harmonics standing clear (out of N searched) for a bearing family.
 ENVELOPE_HARMONICS_RAMP = (1.0, 3.0)
-#: Excess of the strongest bearing line over the local floor, dB.
-ENVELOPE_EXCESS_DB_RAMP = (8.0, 20.0)
+#: Excess of the strongest bearing line over the local floor, dB (common
+#: practice, no source).
+ENVELOPE_EXCESS_DB_RAMP = (12.0, 30.0)
+#: A bearing family this many dB below a shaft family that dominates the
+#: envelope is in its shadow (weighted by half; common practice, no source).
+SHADOW_DB = 20.0
 #: Slip of rolling elements: observed bearing frequencies deviate 1-2 % from the
 #: kinematic values (Randall & Antoni 2011).
 BEARING_SLIP = 0.02
@@ -337,23 +348,41 @@ def _gear_suspects(
 ) -> list[Suspect]:
     out: list[Suspect] = []
     shaft_env = {m.shaft: m for m in envelope_matches if m.kind == "shaft rate"}
+    by_mesh: dict[str, dict[int, float]] = {}
+    for f in sidebands:
+        by_mesh.setdefault(f.mesh, {})[f.harmonic] = f.carrier_amplitude
     for item in tsa:
         name = item.shaft
         ind = item.indicators
         fm4 = float(ind.get("fm4", float("nan")))
         na4 = float(ind.get("na4", float("nan")))
         m6a = float(ind.get("m6a", float("nan")))
-        owned = [f for f in sidebands if f.owner_shaft == name]
+        owned = [f for f in sidebands if f.owner_shaft == name and not getattr(f, "expected", False)]
         sb_score = max((f.candidates.get(name, 0.0) for f in owned), default=0.0)
         env = shaft_env.get(name)
         env_score = ramp(env.n_clear, *ENVELOPE_HARMONICS_RAMP) if env is not None else 0.0
         ceps = float(np.clip(cepstrum_support.get(name, 0.0) or 0.0, 0.0, 1.0))
 
-        # localized tooth damage: impulsive TSA difference / residual signal
+        er = float(ind.get("er", float("nan")))
+        ratio_db = -math.inf
+        growth = 0.0
+        for f in owned:
+            r = f.sideband_ratio
+            if r > 0 and np.isfinite(r):
+                ratio_db = max(ratio_db, 20 * math.log10(r))
+            carriers = by_mesh.get(f.mesh, {})
+            if carriers.get(1, 0) > 0 and 2 in carriers:
+                growth = max(growth, carriers[2] / carriers[1])
+        wear = 0.55 * ramp(er, *ER_RAMP) + 0.45 * ramp(growth, *HARMONIC_GROWTH_RAMP)
+        fam = ramp(sb_score, 0.15, 0.5)
+
+        # localized tooth damage: impulsive TSA difference / residual signal,
+        # unless the same shaft shows the wear pattern and FM4 stays moderate
         impulsive = max(ramp(fm4, *FM4_RAMP), ramp(na4, *NA4_RAMP), 0.8 * ramp(m6a, *M6A_RAMP))
         support = 0.5 * sb_score + 0.5 * env_score
         loc = impulsive * (0.8 + 0.2 * support) + 0.1 * support * (impulsive > 0)
-        loc = float(np.clip(loc, 0.0, 1.0))
+        damp = 1.0 - 0.5 * wear * (1.0 - ramp(fm4, *FM4_SURELY_LOCAL))
+        loc = float(np.clip(loc * damp, 0.0, 1.0))
         ev = [
             f"TSA of shaft {name} over {item.n_revs} revolutions: FM4 {fm4:.2f}, NA4 {na4:.2f}, "
             f"M6A {m6a:.1f} (about 3, 3 and 15 for a healthy gear)."
@@ -365,32 +394,25 @@ def _gear_suspects(
                 + "; ".join(f"{f.mesh} h{f.harmonic} {f.n_found} clear" for f in owned) + ")."
             )
         if env is not None and env.n_clear:
-            ev.append(f"the envelope shows {env.n_clear} clear harmonics of shaft {name}'s rate ({env.expected_hz:.2f} Hz).")
+            ev.append(f"the envelope shows {env.n_clear} clear harmonics of shaft {name}'s rate "
+                      f"({env.expected_hz:.2f} Hz): an impact once per revolution.")
         if ceps > 0:
             ev.append(f"cepstrum rahmonic at shaft {name}'s period: strength {ceps:.2f}.")
+        if damp < 0.95:
+            ev.append(f"the wear pattern (energy ratio {er:.2f}, second mesh harmonic {growth:.2f} of the first) "
+                      f"with FM4 only {fm4:.1f} points to wear rather than one damaged tooth.")
         out.append(
             Suspect(f"shaft:{name}", "localized tooth damage", round(loc, 4), tuple(ev), "tsa", name,
-                    {"impulsive": impulsive, "sidebands": sb_score, "envelope": env_score})
+                    {"impulsive": impulsive, "sidebands": sb_score, "envelope": env_score, "wear": wear})
         )
 
-        # distributed wear or eccentricity: strong families owned by the shaft,
-        # sidebands close to the carrier, higher harmonics growing, FM4 staying low
-        ratio_db = -math.inf
-        growth = 0.0
-        by_mesh: dict[str, dict[int, float]] = {}
-        for f in sidebands:
-            by_mesh.setdefault(f.mesh, {})[f.harmonic] = f.carrier_amplitude
-        for f in owned:
-            r = f.sideband_ratio
-            if r > 0 and np.isfinite(r):
-                ratio_db = max(ratio_db, 20 * math.log10(r))
-            carriers = by_mesh.get(f.mesh, {})
-            if carriers.get(1, 0) > 0 and 2 in carriers:
-                growth = max(growth, carriers[2] / carriers[1])
-        fam = ramp(sb_score, 0.15, 0.5)
-        dist = fam * (0.6 * ramp(ratio_db, *SIDEBAND_RATIO_DB_RAMP) + 0.25 + 0.15 * ramp(growth, *HARMONIC_GROWTH_RAMP))
-        dist = float(np.clip(dist + 0.05 * ceps * fam, 0.0, 1.0))
-        ev2 = []
+        # distributed wear or eccentricity: families owned by the shaft with the
+        # wear pattern (energy ratio, harmonic growth) or strong first sidebands
+        dist = fam * max(wear, ramp(ratio_db, *SIDEBAND_RATIO_DB_RAMP))
+        dist = float(np.clip(dist + 0.05 * ceps * fam * (dist > 0), 0.0, 1.0))
+        ev2 = [
+            f"TSA of shaft {name}: energy ratio {er:.3f} (a few percent for a healthy gear), FM4 {fm4:.2f}."
+        ]
         if owned:
             ev2.append(
                 f"sideband families owned by shaft {name}: best ownership score {sb_score:.2f}, "
@@ -398,32 +420,70 @@ def _gear_suspects(
             )
             if growth > 0:
                 ev2.append(f"second mesh harmonic at {growth:.2f} of the first.")
-            ev2.append(f"FM4 {fm4:.2f}: {'near' if abs(fm4 - 3) < 0.5 else 'away from'} the healthy value 3, "
-                       "as expected when damage is spread over many teeth.")
         else:
             ev2.append(f"shaft {name} owns no sideband family.")
         view = "cepstrum" if ceps > 0.5 and fam > 0 else "spectrum"
         out.append(
             Suspect(f"shaft:{name}", "distributed wear or eccentricity", round(dist, 4), tuple(ev2), view, name,
-                    {"families": fam, "ratio_db": ratio_db, "growth": growth})
+                    {"families": fam, "ratio_db": ratio_db, "growth": growth, "er": er})
         )
     return out
 
 
+def _deviation(m: EnvelopeMatch) -> float:
+    """Mean relative distance of the clear lines of a match from their expected harmonics."""
+    d = [abs(h.found_hz / (h.harmonic * m.expected_hz) - 1.0) for h in m.hits
+         if h.clear and h.coincides_with is None]
+    return float(np.mean(d)) if d else math.inf
+
+
+def _shares_lines(a: EnvelopeMatch, b: EnvelopeMatch) -> bool:
+    fa = [h.found_hz for h in a.hits if h.clear and h.coincides_with is None]
+    fb = [h.found_hz for h in b.hits if h.clear and h.coincides_with is None]
+    return any(abs(x - y) <= 0.002 * max(x, y) for x in fa for y in fb)
+
+
+def _family_level(m: EnvelopeMatch) -> float:
+    vals = [h.amplitude for h in m.hits if h.clear and h.coincides_with is None]
+    return float(np.max(vals)) if vals else 0.0
+
+
 def _bearing_suspects(envelope_matches: Sequence[EnvelopeMatch]) -> list[Suspect]:
     out = []
-    for m in envelope_matches:
-        if not m.component.startswith("bearing:"):
-            continue
+    bearing = [m for m in envelope_matches if m.component.startswith("bearing:")]
+    shafts = [m for m in envelope_matches if m.kind == "shaft rate" and m.n_clear >= 2]
+    for m in bearing:
         harm = ramp(m.n_clear, *ENVELOPE_HARMONICS_RAMP)
         excess = ramp(m.best_excess_db, *ENVELOPE_EXCESS_DB_RAMP)
-        score = 0.55 * harm + 0.45 * excess
+        score = 0.5 * harm + 0.5 * excess
+        ev = list(m.evidence)
         if m.n_clear < 2:
             score *= 0.5
         if m.kind == "bearing inner race":
-            score = min(1.0, score * (0.85 + 0.15 * ramp(m.n_sidebands_clear, 0, 2)))
-        ev = list(m.evidence)
-        out.append(Suspect(m.component, m.kind, round(float(score), 4), tuple(ev), "envelope", m.shaft,
+            score *= 0.85 + 0.15 * ramp(m.n_sidebands_clear, 0, 2)
+        if m.kind == "bearing rolling element":
+            # a rolling element turns with the cage: its impacts are modulated at FTF
+            score *= 0.6 + 0.4 * ramp(m.n_sidebands_clear, 0, 2)
+        level = _family_level(m)
+        for s in shafts:
+            ref = _family_level(s)
+            if level > 0 and ref > 0 and 20 * math.log10(ref / level) >= SHADOW_DB:
+                score *= 0.5
+                ev.append(f"its lines are {20 * math.log10(ref / level):.0f} dB below the harmonics of shaft "
+                          f"{s.shaft}'s rate, which dominate the envelope; they may be side effects of that family.")
+                break
+        # two defect frequencies of one bearing that nearly coincide claim the same
+        # lines: the family whose expected values lie closer keeps the claim
+        for other in bearing:
+            if other is m or other.component != m.component or other.n_clear == 0 or m.n_clear == 0:
+                continue
+            if _shares_lines(m, other) and _deviation(other) < _deviation(m):
+                score *= 0.7
+                ev.append(
+                    f"its lines are also those of {other.label} ({other.expected_hz:.2f} Hz), which lies "
+                    f"closer to them ({100 * _deviation(other):.2f} % against {100 * _deviation(m):.2f} %)."
+                )
+        out.append(Suspect(m.component, m.kind, round(float(min(score, 1.0)), 4), tuple(ev), "envelope", m.shaft,
                            {"harmonics": harm, "excess": excess}))
     return out
 
@@ -477,14 +537,21 @@ def rank_suspects(
     -----
     Scores (0..1), thresholds in the module constants:
 
-    * localized tooth damage = ``impulsive * (0.8 + 0.2 s) + 0.1 s`` where
-      ``impulsive = max(ramp(FM4; 3.5, 6), ramp(NA4; 3.5, 6), 0.8 ramp(M6A; 25, 80))``
+    * wear pattern ``w = 0.55 ramp(ER; 0.1, 0.3) + 0.45 ramp(H2/H1; 0.6, 1.2)``
+      (energy ratio of the shaft's TSA; second over first mesh harmonic of the
+      meshes whose families the shaft owns);
+    * localized tooth damage = ``(impulsive * (0.8 + 0.2 s) + 0.1 s) *
+      (1 - 0.5 w (1 - ramp(FM4; 10, 30)))`` where
+      ``impulsive = max(ramp(FM4; 5, 9), ramp(NA4; 5, 9), 0.8 ramp(M6A; 50, 150))``
       and ``s`` averages the sideband-ownership and envelope shaft-rate support;
-    * distributed wear = ``ramp(ownership; 0.15, 0.5) * (0.6 ramp(SB/carrier dB; -20, -8)
-      + 0.25 + 0.15 ramp(H2/H1; 0.5, 1))``;
-    * bearing = ``0.55 ramp(clear harmonics; 1, 3) + 0.45 ramp(excess dB; 8, 20)``,
-      halved with fewer than two clear harmonics; inner race weighted by
-      shaft-rate sidebands.
+    * distributed wear or eccentricity = ``ramp(ownership; 0.15, 0.5) *
+      max(w, ramp(first sideband / carrier dB; -20, -8))``;
+    * bearing = ``0.5 ramp(clear harmonics; 1, 3) + 0.5 ramp(excess dB; 12, 30)``,
+      halved with fewer than two clear harmonics, halved again when a shaft
+      family 20 dB stronger dominates the envelope; inner race weighted by
+      shaft-rate sidebands, rolling element by cage-rate sidebands; of two
+      defect frequencies of one bearing claiming the same lines, the farther
+      one is weighted by 0.7.
 
     References
     ----------
