@@ -41,9 +41,10 @@ def shaft_colour(model, shaft: str | None) -> str:
     return SHAFT_COLOURS[index % len(SHAFT_COLOURS)]
 
 
-def gear_colours(n: int) -> list[str]:
-    """``n`` distinct colours for the gears on one shaft (tooth ticks)."""
-    return [SHAFT_COLOURS[(i + 1) % len(SHAFT_COLOURS)] for i in range(n)]
+def gear_colours(n: int, avoid: str | None = None) -> list[str]:
+    """``n`` distinct colours for the gears on one shaft (tooth ticks), other than ``avoid``."""
+    usable = [c for c in SHAFT_COLOURS[:-1] if c != avoid]
+    return [usable[i % len(usable)] for i in range(n)]
 
 
 def configure_pyqtgraph() -> None:

@@ -33,9 +33,11 @@ class EnvelopeView(AnalysisView):
         self.curve.setClipToView(True)
         self.curve.setDownsampling(auto=True, method="peak")
         self.marks = []
-        for _ in range(N_MARKS):
+        for i in range(N_MARKS):
+            # labels staggered in height so marks close together stay readable
             line = pg.InfiniteLine(angle=90, movable=False, label="",
-                                   labelOpts={"position": 0.92, "color": theme.FOREGROUND})
+                                   labelOpts={"position": 0.96 - 0.045 * (i % 7), "color": theme.FOREGROUND,
+                                              "fill": (255, 255, 255, 210)})
             line.setVisible(False)
             self.plot.addItem(line, ignoreBounds=True)
             self.marks.append(line)
@@ -93,8 +95,7 @@ class EnvelopeView(AnalysisView):
         marks = []
         rate = self.shaft_rate_hz(shaft)
         if rate:
-            marks += [(f"{shaft} ×{h}" if h > 1 else f"{shaft}", h * rate, theme.shaft_colour(self.analysis.model, shaft))
-                      for h in (1, 2, 3)]
+            marks += [(f"{h}× {shaft}", h * rate, theme.shaft_colour(self.analysis.model, shaft)) for h in (1, 2, 3)]
         for bearing in getattr(table, "bearings", ()) or ():
             if bearing.shaft != shaft:
                 continue
@@ -116,38 +117,16 @@ class EnvelopeView(AnalysisView):
         kurtogram = getattr(self.analysis, "kurtogram", None)
         if not show or kurtogram is None:
             return
-        rows = kurtogram_rows(kurtogram)
-        if rows is None:
-            return
-        fs = float(self.analysis.recording.get("sample_rate_hz", 2.0)) if isinstance(self.analysis.recording, dict) else 2.0
-        levels = [float(v) for v in np.asarray(kurtogram.levels).ravel()]
-        self.image.setImage(rows, autoLevels=True)
-        self.image.setRect(0.0, 0.0, fs / 2.0, float(rows.shape[0]))
-        axis = self.kurt_plot.getAxis("left")
-        axis.setTicks([[(i + 0.5, f"{lvl:g}") for i, lvl in enumerate(levels)]])
-        self.kurt_plot.setLabel("left", "level")
+        from dsp.envelope import kurtogram_map
+
+        grid, edges_hz, labels = kurtogram_map(kurtogram)
+        self.image.setImage(grid, autoLevels=True)
+        self.image.setRect(float(edges_hz[0]), 0.0, float(edges_hz[-1] - edges_hz[0]), float(grid.shape[0]))
+        self.kurt_plot.getAxis("left").setTicks([[(i + 0.5, text) for i, text in enumerate(labels)]])
         self.kurt_plot.getViewBox().invertY(True)
-        best = getattr(kurtogram, "best_band_hz", None)
-        best_level = getattr(kurtogram, "best_level", None)
-        if best is not None and best_level is not None and float(best_level) in levels:
-            i = levels.index(float(best_level))
-            lo, hi = best
-            self.best_box.setData([lo, hi, hi, lo, lo], [i, i, i + 1, i + 1, i])
-        self.kurt_plot.setTitle(f"kurtogram: best band {best[0]:.0f} to {best[1]:.0f} Hz" if best is not None else "kurtogram")
-
-
-def kurtogram_rows(kurtogram) -> np.ndarray | None:
-    """The kurtogram as a 2-D image, one row per level (ragged rows repeated to a common width)."""
-    values = kurtogram.kurtosis
-    if isinstance(values, np.ndarray) and values.ndim == 2:
-        return np.asarray(values, dtype=float)
-    rows = [np.asarray(r, dtype=float).ravel() for r in values]
-    if not rows:
-        return None
-    width = int(np.lcm.reduce([r.size for r in rows if r.size] or [1]))
-    width = min(width, 4096)
-    image = np.empty((len(rows), width))
-    for i, row in enumerate(rows):
-        idx = (np.arange(width) * row.size) // width
-        image[i] = row[idx]
-    return image
+        levels = [float(v) for v in kurtogram.levels]
+        lo, hi = kurtogram.best_band_hz
+        i = int(np.argmin(np.abs(np.asarray(levels) - float(kurtogram.best_level))))
+        self.best_box.setData([lo, hi, hi, lo, lo], [i, i, i + 1, i + 1, i])
+        self.kurt_plot.setTitle(f"kurtogram: largest kurtosis {kurtogram.best_kurtosis:.1f} "
+                                f"in {lo:.0f} to {hi:.0f} Hz (level {labels[i]})", color=theme.FOREGROUND, size="9pt")

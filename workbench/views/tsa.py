@@ -96,7 +96,7 @@ class TsaView(AnalysisView):
         lo, hi = (float(y.min()), float(y.max())) if y.size else (-1.0, 1.0)
         span = (hi - lo) or 1.0
         ticks = self.tooth_ticks()
-        colours = theme.gear_colours(len(ticks))
+        colours = theme.gear_colours(len(ticks), avoid=colour)
         row = 0.09 * span
         for i, (tick_item, label) in enumerate(zip(self.tick_items, self.tick_labels)):
             if i >= len(ticks):
