@@ -162,3 +162,24 @@ def test_kurtogram_limits_level_and_length():
     assert kg2.n_samples <= 10_000 and kg2.t_start_s > 0
     with pytest.raises(AnalysisError, match="max_level"):
         fast_kurtogram(long, FS, max_level=0)
+
+
+def test_kurtogram_band_holding_a_tone_reads_minus_one():
+    rng = np.random.default_rng(8)
+    n = 2**15
+    t = np.arange(n) / FS
+    x = 10.0 * np.cos(2 * np.pi * 4321.0 * t) + 0.1 * rng.standard_normal(n)
+    kg = fast_kurtogram(x, FS, max_level=4)
+    row = kg.kurtosis[kg.levels.index(3.0)]
+    band = int(4321.0 // 1250.0)  # level 3 band [3750, 5000] Hz
+    # Antoni 2006/2007: a constant-amplitude sinusoid has spectral kurtosis -1
+    assert row[band] == pytest.approx(-1.0, abs=0.01)
+    assert kg.best_kurtosis < 0.3  # nothing impulsive here
+
+
+def test_envelope_spectrum_options_are_checked():
+    x = am_signal()
+    with pytest.raises(AnalysisError, match="band_source"):
+        envelope_spectrum(x, FS, (2500.0, 3500.0), band_source="auto")
+    with pytest.raises(AnalysisError, match="fs"):
+        envelope_spectrum(x, None, (2500.0, 3500.0))
