@@ -101,6 +101,19 @@ class Rahmonics:
         """``strength / floor`` (nan when the floor is zero)."""
         return self.strength / self.floor if self.floor > 0 else float("nan")
 
+    @property
+    def support(self) -> float:
+        """0..1 score: 0 up to a prominence of 3 (three robust standard deviations,
+        a common practice threshold), rising linearly to 1 at a prominence of 10."""
+        p = self.prominence
+        if not np.isfinite(p):
+            return 0.0
+        return float(np.clip((p - 3.0) / 7.0, 0.0, 1.0))
+
+    def __float__(self) -> float:
+        """``float(rahmonics)`` is :attr:`support` (0..1)."""
+        return self.support
+
 
 def _eps_for(mag: np.ndarray, eps: float | None) -> float:
     if eps is None:
@@ -217,6 +230,14 @@ def rahmonic_strength(
     Returns
     -------
     Rahmonics
+        Peak values and where they were found; ``.strength`` (mean peak value),
+        ``.prominence`` (strength over the cepstrum's robust spread) and
+        ``.support`` (0..1, also given by ``float(result)``).
+
+    Examples
+    --------
+    >>> r = rahmonic_strength(cepstrum_from_rfft(full), shaft_hz=50.0, n=3)  # doctest: +SKIP
+    >>> r.quefrency_s, r.support                                             # doctest: +SKIP
 
     References
     ----------

@@ -61,6 +61,7 @@ def test_impulse_train_rahmonic_at_20_ms(seed):
     rh = rahmonic_strength(c, 50.0, 3)
     np.testing.assert_allclose(rh.quefrency_s, [0.02, 0.04, 0.06], atol=1 / FS)  # rahmonics at n/f, Randall 2017
     assert rh.prominence > 5  # common practice, no source: a clear family stands well above the cepstral floor
+    assert float(rh) == rh.support == 1.0  # prominence measured ~18 here, above the 10 that saturates the score
 
 
 def test_gear_like_modulation_gives_rahmonics_at_20_and_40_ms():
@@ -109,3 +110,14 @@ def test_cepstral_editing_removes_a_harmonic_family_and_keeps_the_rest():
     assert line_to_floor_db(after) < 3
     # ... and leaves the random part: the edited signal has the noise's RMS (common practice, no source)
     assert np.std(edited) == pytest.approx(np.std(noise), rel=0.1)
+
+
+def test_noise_gives_no_rahmonic_support():
+    x = np.random.default_rng(12).standard_normal(N)
+    c = real_cepstrum(x, FS)
+    for shaft_hz in (50.0, 23.7, 133.3):
+        rh = rahmonic_strength(c, shaft_hz, 3)
+        # white noise has no line family: the peaks stay within ~3 robust standard deviations
+        # of the cepstral floor (common practice 3-sigma threshold, no source)
+        assert rh.prominence < 3.0
+        assert rh.support == 0.0
