@@ -560,9 +560,11 @@ def fast_kurtogram(x, fs: float, *, max_level: int = 6, max_samples: int = 2**18
         level actually used is in ``Kurtogram.max_level``.
     max_samples : int, optional
         Longest stretch analysed: a longer signal is analysed on its central
-        ``max_samples`` samples (2**18 = 5.2 s at 50 kHz, 13 s at 20 kHz).  Kurtosis needs
-        enough impacts, not the whole record, and this keeps the cost bounded
-        on multi-million-sample recordings.
+        ``max_samples`` samples (2**18 = 5.2 s at 50 kHz, 13 s at 20 kHz),
+        shortened to a multiple of ``3 * 2**max_level``.  Kurtosis needs enough
+        impacts, not the whole record, and this keeps the cost bounded on
+        multi-million-sample recordings (where the stretch starts is in
+        ``Kurtogram.t_start_s``).
 
     Returns
     -------

@@ -183,3 +183,21 @@ def test_envelope_spectrum_options_are_checked():
         envelope_spectrum(x, FS, (2500.0, 3500.0), band_source="auto")
     with pytest.raises(AnalysisError, match="fs"):
         envelope_spectrum(x, None, (2500.0, 3500.0))
+
+
+@pytest.mark.parametrize("fc_hz", [2900.0, 5400.0, 7500.0])
+def test_kurtogram_band_bookkeeping_at_every_level(fc_hz):
+    # Random impacts on a resonance: at EVERY level the band of largest kurtosis must be the one
+    # holding the resonance (Antoni 2007: SK is largest where the transients' energy lies); this
+    # checks the order of the bands after the binary and three-way splits.
+    rng = np.random.default_rng(1)
+    n = 2**16
+    tau = np.arange(200) / FS
+    ring = np.exp(-600 * tau) * np.sin(2 * np.pi * fc_hz * tau)
+    hits = np.zeros(n)
+    hits[rng.integers(0, n, 150)] = 1.0
+    x = np.convolve(hits, ring)[:n] + 0.3 * rng.standard_normal(n)
+    kg = fast_kurtogram(x, FS, max_level=5)
+    for level, row, edges in zip(kg.levels, kg.kurtosis, kg.band_edges_hz):
+        j = int(np.argmax(row))
+        assert edges[j] <= fc_hz <= edges[j + 1], f"level {level:.1f}"
