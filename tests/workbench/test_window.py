@@ -37,8 +37,12 @@ def window(qtbot, tmp_path):
 
 
 def open_demo(qtbot, window, path=DEMO):
-    with qtbot.waitSignal(window.analysis_shown, timeout=TIMEOUT_MS):
+    failed = []
+    window.analysis_failed.connect(failed.append)
+    with qtbot.waitSignal(window.analysis_shown, timeout=TIMEOUT_MS, raising=False) as blocker:
         window.open_recording(path)
+        qtbot.waitUntil(lambda: bool(blocker.signal_triggered or failed), timeout=TIMEOUT_MS)
+    assert not failed, f"the demo analysis failed: {failed[0]}"
     return window.analysis
 
 
@@ -238,3 +242,52 @@ def test_command_line_screenshot_and_bad_file(tmp_path):
     assert run.returncode == 2
     lines = [line for line in run.stderr.splitlines() if line.startswith("gearbench:")]
     assert len(lines) == 1 and "bad.flac" in lines[0]
+
+
+@pytest.mark.parametrize("n, t0_s, t1_s, n_columns", [
+    (1_000_003, 0.0, 1e9, 700),        # whole record, coarse summary level used
+    (1_000_003, 12.3, 31.7, 512),      # zoomed: finer level
+    (1_000_003, 40.0, 40.004, 300),    # deep zoom: raw samples
+])
+def test_min_max_decimation_keeps_every_extreme(n, t0_s, t1_s, n_columns):
+    from workbench.views.waveform import MinMaxDecimator
+
+    fs = 25_000.0
+    y = np.random.default_rng(3).standard_normal(n).astype(np.float32)
+    y[777_777] = 9.0                                     # one isolated spike must survive any zoom out
+    x, drawn = MinMaxDecimator(y, fs).columns(t0_s, t1_s, n_columns)
+    i0 = int(np.clip(np.floor(t0_s * fs), 0, n))
+    i1 = int(np.clip(np.ceil(t1_s * fs) + 1, 0, n))
+    assert len(x) <= 2 * n_columns + 2                   # at most a min/max pair per pixel column
+    if i1 - i0 > 2 * n_columns:
+        # columns start on whole summary blocks, so they cover the view with at most one block to spare
+        block = 65536
+        assert i0 - block < round(x[0] * fs) <= i0
+        # no extreme of the visible samples is lost (numpy as the reference)
+        assert drawn.max() >= y[i0:i1].max() and drawn.min() <= y[i0:i1].min()
+        if i0 <= 777_777 < i1:
+            assert drawn.max() == 9.0
+        # each pair is the min and max of its column's raw samples (numpy reference)
+        edges = np.round(x[0::2] * fs).astype(int)
+        for k in (0, len(edges) // 2, len(edges) - 2):
+            a, b = edges[k], edges[k + 1]
+            assert drawn[2 * k] == y[a:b].min() and drawn[2 * k + 1] == y[a:b].max()
+    else:
+        np.testing.assert_array_equal(drawn, y[i0:i1])
+
+
+def test_dragging_the_envelope_band_reruns_with_that_band(qtbot, window):
+    open_demo(qtbot, window)
+    assert window.analysis.envelope.band_source == "kurtogram"
+    spectrum = window.views["spectrum"]
+    spectrum.band_button.setChecked(True)
+    with qtbot.waitSignal(window.analysis_shown, timeout=TIMEOUT_MS):
+        spectrum.band_region.setRegion((5000.0, 7000.0))
+        spectrum.band_region.sigRegionChangeFinished.emit(spectrum.band_region)
+    assert window.session.settings.envelope_band_hz == (5000.0, 7000.0)
+    assert tuple(window.analysis.envelope.band_hz) == (5000.0, 7000.0)
+    assert window.analysis.envelope.band_source == "user"
+    assert "chosen by you" in window.views["envelope"].caption.text()
+    with qtbot.waitSignal(window.analysis_shown, timeout=TIMEOUT_MS):
+        spectrum.auto_band.click()
+    assert window.analysis.envelope.band_source == "kurtogram"

@@ -61,7 +61,9 @@ class MinMaxDecimator:
         for level_block, level_mins, level_maxs in self.levels:
             if level_block <= per_column / 2:
                 block, mins, maxs = level_block, level_mins, level_maxs
-        j0, j1 = i0 // block, max(i1 // block, i0 // block + 1)
+        # whole summary blocks covering [i0, i1): a column may reach up to one block outside the view
+        j0 = i0 // block
+        j1 = max(min(-(-i1 // block), mins.size), j0 + 1)
         edges = np.linspace(j0, j1, n_columns + 1).astype(np.int64)
         edges = np.unique(np.clip(edges, j0, j1 - 1))
         lo = np.minimum.reduceat(mins[j0:j1], edges - j0)
