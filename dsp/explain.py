@@ -126,12 +126,12 @@ class Explanation:
 # --------------------------------------------------------------------------- helpers
 
 
-def _positive(name: str, value: Any, *, allow_zero: bool = False) -> float:
+def _positive(name: str, value: Any, *, allow_zero: bool = False, allow_inf: bool = False) -> float:
     try:
         v = float(value)
     except (TypeError, ValueError):
         v = math.nan
-    if not math.isfinite(v) or v < 0 or (v == 0 and not allow_zero):
+    if math.isnan(v) or (math.isinf(v) and not allow_inf) or v < 0 or (v == 0 and not allow_zero):
         need = "zero or more" if allow_zero else "more than zero"
         raise AnalysisError(f"{name}={value!r} must be a finite number {need}; pass a valid value")
     return v
@@ -304,7 +304,7 @@ def match_spacing(spacing_hz: float, table, *, tolerance_hz: float, scale: float
     table : dsp.kinematics.FrequencyTable
     tolerance_hz : float
         Largest accepted ``|spacing - rate|`` (display units; see
-        :func:`tolerance_hz`).
+        :func:`tolerance_hz`); ``math.inf`` ranks every rate.
     scale : float
         Display units per Hz (:func:`axis_scale`).
     include_planet_pass : bool
@@ -322,7 +322,7 @@ def match_spacing(spacing_hz: float, table, *, tolerance_hz: float, scale: float
        (ownership of a sideband family by its spacing).
     """
     spacing = _positive("spacing_hz", spacing_hz)
-    tol = _positive("tolerance_hz", tolerance_hz, allow_zero=True)
+    tol = _positive("tolerance_hz", tolerance_hz, allow_zero=True, allow_inf=True)
     sc = _positive("scale", scale)
     candidates = [(s.name, float(s.hz) * sc, "shaft rate", f"{s.name} shaft rate") for s in table.shafts]
     if include_planet_pass:
@@ -472,7 +472,9 @@ def nearest_peak(freq_hz, amplitude, f0_hz: float, *, search_hz: float) -> tuple
     Returns
     -------
     (f, a) : tuple of float
-        Frequency and amplitude of the peak.  When the largest line is a local
+        Frequency and amplitude of the peak: the largest local maximum in
+        reach, or the largest line when the reach holds no local maximum
+        (a slope).  When that line is a local
         maximum with positive neighbours, a parabola through the logarithms of
         the three amplitudes gives the peak position and height ([1]_); else
         the line itself is returned.
@@ -491,7 +493,15 @@ def nearest_peak(freq_hz, amplitude, f0_hz: float, *, search_hz: float) -> tuple
     if i1 <= i0:
         i = bin_index(f, x)
         i0, i1 = i, i + 1
-    i = i0 + int(np.argmax(a[i0:i1]))
+    # local maxima in reach (neighbours outside the window count), the largest wins
+    j0, j1 = max(i0 - 1, 0), min(i1 + 1, f.size)
+    seg = np.asarray(a[j0:j1], dtype=float)
+    inner = np.arange(i0 - j0, i1 - j0)
+    left = np.where(inner > 0, seg[np.maximum(inner - 1, 0)], -np.inf)
+    right = np.where(inner < seg.size - 1, seg[np.minimum(inner + 1, seg.size - 1)], -np.inf)
+    peaks = inner[(seg[inner] >= left) & (seg[inner] >= right)]
+    pick = peaks if peaks.size else inner
+    i = j0 + int(pick[np.argmax(seg[pick])])
     if 0 < i < f.size - 1:
         y0, y1, y2 = float(a[i - 1]), float(a[i]), float(a[i + 1])
         if y1 >= y0 and y1 >= y2 and min(y0, y1, y2) > 0:

@@ -212,3 +212,15 @@ def test_nearest_peak_picks_the_largest_in_reach_and_handles_edges():
     assert nearest_peak(f, a, 0.0, search_hz=0.0) == (0.0, 5.0)
     with pytest.raises(AnalysisError, match="1-D arrays"):
         nearest_peak(f, a[:5], 1.0, search_hz=1.0)
+
+
+def test_nearest_peak_prefers_a_local_maximum_to_a_slope():
+    f = np.arange(10.0)
+    a = np.array([1, 2, 3, 9, 8, 7, 6, 5, 4, 3], dtype=float)
+    # reach 4..6 holds only a falling slope: no local maximum, so the largest line there is returned
+    assert nearest_peak(f, a, 5.0, search_hz=1.0) == (4.0, 8.0)
+    # reach 2..6 holds the maximum at 3 (common practice, no source: a peak is a local maximum)
+    assert round(nearest_peak(f, a, 4.0, search_hz=2.0)[0]) == 3
+    b = np.array([1, 2, 9, 3, 8, 9.5, 1, 1, 1, 1], dtype=float)
+    # two local maxima in reach: the larger (5) wins over the one nearer the centre (2)
+    assert round(nearest_peak(f, b, 3.0, search_hz=2.5)[0]) == 5
