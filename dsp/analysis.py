@@ -60,6 +60,9 @@ MIN_TSA_REVS = 3
 SPEED_SPREAD_WARN = 0.10
 #: Non-finite samples above this fraction of the record make the analysis fail.
 MAX_NONFINITE_FRACTION = 0.05
+#: Rahmonic prominence (mean rahmonic peak over the cepstrum's robust spread)
+#: mapped to a support of 0..1 (common practice, no source).
+CEPSTRUM_PROMINENCE_RAMP = (6.0, 20.0)
 CAUTION = (
     "Guidance for a qualified analyst: confirm every finding on the views, and defer to local codes, "
     "the manufacturer's instructions and licensed practice."
@@ -146,6 +149,10 @@ class _Steps:
             self.progress(float(fraction), text)
 
 
+def _ramp(x: float, lo: float, hi: float) -> float:
+    return float(np.clip((x - lo) / (hi - lo), 0.0, 1.0))
+
+
 def _readonly(a: np.ndarray) -> np.ndarray:
     a = np.asarray(a)
     if a.flags.writeable and a.base is None:
@@ -177,7 +184,7 @@ def _time_range(settings: Settings, n_frames: int, fs: float) -> tuple[int, int]
 
 def _speed(recording, model, x: np.ndarray, i0: int, i1: int, fs: float, reference: str, warn: list[str]):
     """Speed profile of the reference shaft (time 0 at sample ``i0``) and the tach pulses."""
-    from .errors import TachError
+    from .errors import AnalysisError, TachError
     from .tach import detect_pulses, nominal_profile, speed_profile
 
     tach = model.tach
@@ -203,16 +210,21 @@ def _speed(recording, model, x: np.ndarray, i0: int, i1: int, fs: float, referen
         raise TachError(
             "the model has neither a tach channel nor a nominal speed; give tach.channel or tach.nominal_rpm",
         )
+    from .speed_estimate import estimate_speed
+
     try:
-        from .speed_estimate import estimate_speed
-    except ImportError:  # pragma: no cover - module not yet available
-        estimate_speed = None
-    if estimate_speed is not None:
-        try:
-            profile = estimate_speed(x, fs, model, nominal_rpm=float(rpm), shaft=reference)
-            return profile, None
-        except TachError as exc:
-            warn.append(f"speed estimate failed ({exc}); the nominal speed {rpm:g} rpm is used as constant.")
+        est = estimate_speed(x, fs, model, nominal_rpm=float(rpm), reference_shaft=reference)
+    except (TachError, AnalysisError) as exc:
+        warn.append(f"speed estimate failed ({exc}); the nominal speed {rpm:g} rpm is used as constant.")
+    else:
+        if est.method == "nominal":
+            warn.append(f"no tach channel and no mesh line clear enough to follow: the nominal speed {rpm:g} rpm "
+                        "is assumed constant; orders and TSA are only as good as that assumption.")
+        else:
+            warn.append(f"no tach channel: the speed was estimated from harmonic {est.harmonic} of {est.mesh} "
+                        f"({est.method}, {est.snr_db:.0f} dB above its band), mean {60 * est.mean_hz:.1f} rpm "
+                        f"against {rpm:g} rpm nominal; check it on the speed view.")
+        return est.profile, None
     profile = nominal_profile(float(rpm), duration, reference)
     warn.append(
         f"no tach channel: the nominal speed {rpm:g} rpm is assumed constant; orders and TSA are only as "
@@ -301,6 +313,38 @@ def _carriers(table, model):
     return out
 
 
+def _choose_band(kurt, table, settings: Settings, nyq: float, warn: list[str]) -> tuple[float, float]:
+    """The kurtogram band of largest kurtosis that lies above the gear mesh lines and is wide enough.
+
+    The band must start above the highest mesh harmonic analysed (plus its
+    sidebands), where the discrete gear lines would otherwise beat with each
+    other in the envelope, and be at least 4.5 times the highest bearing defect
+    frequency wide so that four harmonics fit in the envelope spectrum
+    (band at least about 3 times the highest fault frequency, common practice,
+    no source; Randall & Antoni 2011 for the choice by kurtosis).
+    """
+    gmfs = [m.gmf_hz for m in table.meshes] + [p.mesh_hz for p in table.planetary]
+    spacing = max((sh.hz for sh in table.shafts), default=0.0)
+    lo_min = (settings.n_mesh_harmonics * max(gmfs) + (settings.n_sideband_orders + 1) * spacing) if gmfs else 0.0
+    defects = [max(b.bpfo_hz, b.bpfi_hz, 2 * b.bsf_hz) for b in table.bearings]
+    width_min = 4.5 * max(defects + [4 * spacing])
+    lo_min = min(lo_min, 0.5 * nyq)
+    width_min = min(width_min, 0.5 * nyq)
+    best = None
+    for kurts, edges in zip(kurt.kurtosis, kurt.band_edges_hz):
+        kurts = np.asarray(kurts, dtype=float)
+        edges = np.asarray(edges, dtype=float)
+        for i, k in enumerate(kurts):
+            lo, hi = float(edges[i]), float(edges[i + 1])
+            if lo >= lo_min and hi - lo >= width_min and np.isfinite(k) and (best is None or k > best[0]):
+                best = (float(k), lo, hi)
+    if best is None:
+        lo = max(lo_min, 0.5 * nyq)
+        warn.append(f"no kurtogram band lies above the mesh harmonics; the envelope uses {lo:.0f}-{nyq:.0f} Hz.")
+        return (lo, nyq * 0.98)
+    return (best[1], best[2])
+
+
 def _envelope_targets(table):
     from .suspects import EnvelopeTarget
 
@@ -333,45 +377,6 @@ def _envelope_peaks(freq_hz, amplitude, matches, n_peaks: int = 10) -> list[dict
             if h.clear:
                 labels[round(h.found_hz / df)] = f"{h.harmonic}x {m.label} ({m.component})"
     return [{"hz": float(f[i]), "amplitude": float(a[i]), "label": labels.get(int(i))} for i in sorted(top)]
-
-
-@dataclass(frozen=True)
-class _OrderSpectrum:
-    order: np.ndarray
-    amplitude: np.ndarray
-
-
-def _local_order_spectrum(x, fs, profile, *, max_order):
-    """Stand-in: linear-interpolation angular resampling + Hann rfft (until dsp.orders lands)."""
-    p = int(2 ** math.ceil(math.log2(2.2 * max_order)))
-    n_rev = int(profile.n_revs)
-    ang = np.arange(n_rev * p) / p
-    t = profile.time_s(ang) + profile.t_start_s * 0
-    y = np.interp(t, np.arange(x.size) / fs, x)
-    w = np.hanning(y.size + 1)[:-1]
-    amp = np.abs(np.fft.rfft((y - y.mean()) * w)) * 2 / w.sum()
-    order = np.fft.rfftfreq(y.size, 1 / p)
-    keep = order <= max_order
-    return _OrderSpectrum(order[keep], amp[keep])
-
-
-@dataclass(frozen=True)
-class _Cepstrum:
-    quefrency_s: np.ndarray
-    values: np.ndarray
-
-
-def _local_cepstrum(full):
-    c = np.fft.irfft(np.log(np.abs(full.X) + 1e-12 * np.abs(full.X).max()), n=full.n)
-    return _Cepstrum(np.arange(full.n // 2) / full.fs, c[: full.n // 2])
-
-
-def _local_rahmonic(ceps, q_s):
-    dq = ceps.quefrency_s[1]
-    i = int(round(q_s / dq))
-    seg = np.abs(ceps.values[max(i - 2, 1): i + 3])
-    ref = np.median(np.abs(ceps.values[max(i // 2, 1): 2 * i + 1]))
-    return float(np.clip((seg.max() / ref - 1) / 10, 0, 1)) if ref > 0 else 0.0
 
 
 # ---------------------------------------------------------------------------
@@ -515,10 +520,7 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
 
     # --- order spectrum ---------------------------------------------------
     step(0.2, "order spectrum")
-    try:
-        from .orders import order_spectrum
-    except ImportError:  # pragma: no cover - until dsp.orders lands
-        order_spectrum = _local_order_spectrum
+    from .orders import order_spectrum
 
     max_gmf_order = max([m.gmf_order for m in table.meshes] + [p.mesh_hz / table.reference_hz for p in table.planetary]
                         + [1.0])
@@ -526,7 +528,7 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
     if max_order is None:
         max_order = (settings.n_mesh_harmonics + 0.5) * max_gmf_order
     max_order = float(min(max_order, 0.45 * fs / profile.max_hz))
-    ospec = order_spectrum(x, fs, profile, max_order=max_order)
+    ospec = order_spectrum(x, fs, profile, max_order=max_order, window="hann")
 
     # --- TSA per shaft ----------------------------------------------------
     from .tsa import tsa_shafts
@@ -557,7 +559,7 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
         band_source = "user"
     else:
         kurt = fast_kurtogram(x, fs, max_level=settings.kurtogram_max_level)
-        band = tuple(float(v) for v in kurt.best_band_hz)
+        band = _choose_band(kurt, table, settings, nyq, warn)
         band_source = "kurtogram"
     env = envelope_spectrum(full, fs, band, band_source=band_source)
     from .suspects import match_envelope, rank_suspects, score_components
@@ -566,18 +568,19 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
 
     # --- cepstrum ---------------------------------------------------------
     step(0.75, "cepstrum")
-    try:
-        from .cepstrum import cepstrum_from_rfft, rahmonic_strength
-    except ImportError:  # pragma: no cover - until dsp.cepstrum lands
-        cepstrum_from_rfft, rahmonic_strength = _local_cepstrum, _local_rahmonic
+    from .cepstrum import cepstrum_from_rfft, rahmonic_strength
+    from .errors import GearbenchError
 
     ceps = cepstrum_from_rfft(full)
     ceps_support = {}
+    ceps_prominence = {}
     for s in table.shafts:
         try:
-            ceps_support[s.name] = float(rahmonic_strength(ceps, 1.0 / s.hz))
-        except Exception:  # noqa: BLE001 - a rahmonic outside the cepstrum gives no support
-            ceps_support[s.name] = float("nan")
+            prom = float(rahmonic_strength(ceps, s.hz).prominence)
+        except GearbenchError:  # the rahmonics lie beyond the cepstrum: no support either way
+            prom = float("nan")
+        ceps_prominence[s.name] = prom
+        ceps_support[s.name] = _ramp(prom, *CEPSTRUM_PROMINENCE_RAMP) if math.isfinite(prom) else float("nan")
 
     # --- sidebands and suspects ---------------------------------------------
     step(0.85, "sideband families")
@@ -630,6 +633,7 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
             "zoom": zoom,
             "quality": quality,
             "cepstrum_support": ceps_support,
+            "cepstrum_prominence": ceps_prominence,
             "all_scores": all_scores,
             "full_rfft": full,
             "speed_spread": spread,

@@ -24,9 +24,10 @@ The measurement, per mesh harmonic and per candidate shaft:
    common practice, no source) and at least the level that noise alone passes
    with 1 % probability in the window searched (:func:`detection_threshold_db`);
 5. a score per candidate, from 0 to 1: each sideband position scores 0 at
-   ``clear_db`` above the floor rising to 1 at 20 dB more; positions that
-   coincide with a line of another candidate or of another mesh count half,
-   because that line would be there whichever shaft owns the family.
+   ``clear_db`` above the floor rising to 1 at 40 dB more.  A position that
+   coincides with a line of another candidate's family (or another mesh
+   harmonic) goes to the family that reaches it with the lower sideband order,
+   because sidebands fall with their order; equal orders share it.
    The score is the mean over the ``2 * n_sideband_orders`` positions.
    Cepstral support (rahmonic strength at the shaft period) breaks near ties.
 
@@ -60,9 +61,9 @@ from .errors import AnalysisError
 #: (common practice, no source).
 CLEAR_DB = 6.0
 #: Strength rises from 0 at ``CLEAR_DB`` to 1 at ``CLEAR_DB + STRONG_SPAN_DB``.
-STRONG_SPAN_DB = 20.0
+STRONG_SPAN_DB = 40.0
 #: A family needs at least this score, and two clear sidebands, to be given an
-#: owner (two sidebands 16 dB above the floor out of six give 0.17; common
+#: owner (two sidebands 26 dB above the floor out of six give 0.17; common
 #: practice, no source).
 MIN_OWNER_SCORE = 0.1
 MIN_OWNER_SIDEBANDS = 2
@@ -178,11 +179,25 @@ def _window_max(order: np.ndarray, amplitude: np.ndarray, center: float, tol: fl
 
 
 def _strength(level: float, floor: float, clear_db: float) -> float:
-    """0 at ``clear_db`` above the floor, rising to 1 over the next 20 dB."""
+    """0 at ``clear_db`` above the floor, rising to 1 over the next ``STRONG_SPAN_DB`` (40 dB)."""
     if not (level > 0 and floor > 0):
         return 0.0
     excess = 20.0 * math.log10(level / floor)
     return float(np.clip((excess - clear_db) / STRONG_SPAN_DB, 0.0, 1.0))
+
+
+def _share_weight(k: int, k_other: int) -> float:
+    """Weight of a sideband line that another family (or a carrier, ``k_other = 0``) also explains.
+
+    Sideband amplitudes fall with their order, so the family that reaches the line
+    with the lower order is the likelier explanation: it takes the line (1), the
+    other gets nothing (0); equal orders share it (0.5).
+    """
+    if k < k_other:
+        return 1.0
+    if k > k_other:
+        return 0.0
+    return 0.5
 
 
 def _db(level: float, floor: float) -> float:
@@ -315,15 +330,16 @@ def measure_sidebands(
                     )
                     continue
                 # lines that would be present whichever candidate owned the family
-                foreign: list[tuple[float, float]] = [(o, tolerance(o)) for o in all_carrier_orders]
+                # (order, tolerance, k of that line in its own family; 0 for a carrier)
+                foreign: list[tuple[float, float, int]] = [(o, tolerance(o), 0) for o in all_carrier_orders]
                 for other, osp in cands:
                     if other == name or osp <= 0:
                         continue
                     o_tol = min(tolerance(c_order + K * osp), osp / 3.0)
                     n_other = int(math.ceil((K + 0.5) * sp / osp)) + 1
                     for kk in range(1, n_other + 1):
-                        foreign.append((c_order - kk * osp, o_tol))
-                        foreign.append((c_order + kk * osp, o_tol))
+                        foreign.append((c_order - kk * osp, o_tol, kk))
+                        foreign.append((c_order + kk * osp, o_tol, kk))
                 a = np.empty((2, K))
                 total = 0.0
                 count = 0
@@ -336,8 +352,8 @@ def measure_sidebands(
                         s = _strength(level, floor, thr)
                         if _db(level, floor) >= thr:
                             count += 1
-                        shared = any(abs(target - fo) <= tol + ft for fo, ft in foreign)
-                        total += 0.5 * s if shared else s
+                        ks = [fk for fo, ft, fk in foreign if abs(target - fo) <= tol + ft]
+                        total += s * _share_weight(k, min(ks)) if ks else s
                 score = total / (2 * K)
                 support = cepstrum_support.get(name)
                 if support is not None and np.isfinite(support):
