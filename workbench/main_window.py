@@ -178,6 +178,7 @@ class MainWindow(QMainWindow):
             self.form.model_changed.connect(self.apply_model)
             self.form.problems_changed.connect(self._on_problems)
             self.form.sensor_selected.connect(self._on_sensor_selected)
+            self.form.file_loaded.connect(self._on_form_file_loaded)
         splitter.addWidget(self.frequency_panel)
         splitter.setSizes([620, 300])
         left = QDockWidget("Gear train", self)
@@ -303,6 +304,10 @@ class MainWindow(QMainWindow):
         more = f" (and {len(errors) - 1} more)" if len(errors) > 1 else ""
         shown = "the last good result stays on screen" if self.analysis is not None else "nothing can be analysed yet"
         self.banner.set_part("model", "error", f"Model: {errors[0]}{more}; {shown} until it is fixed.")
+
+    def _on_form_file_loaded(self, path: str) -> None:
+        self.session.model_path = Path(path)
+        self._remember(Path(path))
 
     def _ask_recording(self) -> None:
         path, _ = QFileDialog.getOpenFileName(self, "Open recording", str(self._start_dir()),

@@ -11,6 +11,7 @@ import math
 from typing import Any
 
 from PySide6.QtCore import Qt, Signal
+from PySide6.QtGui import QColor
 from PySide6.QtWidgets import (QAbstractItemView, QGroupBox, QHeaderView, QLabel, QListWidget,
                                QListWidgetItem, QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget)
 
@@ -23,8 +24,16 @@ OVERALL_KEYS = (
 TSA_KEYS = ("rms", "kurtosis", "fm0", "fm4", "na4", "m6a", "m8a", "er")
 SIDEBAND_COLUMNS = (
     ("mesh", "mesh"), ("harmonic", "GMF×"), ("carrier_hz", "carrier Hz"), ("owner_shaft", "owner shaft"),
-    ("spacing_hz", "spacing Hz"), ("sideband_index", "SI"), ("sideband_level_factor", "SLF"),
+    ("owner_score", "owner score"), ("spacing_hz", "spacing Hz"), ("n_found", "sidebands"),
+    ("sideband_index", "SI"), ("sideband_level_factor", "SLF"),
 )
+
+
+def _sideband_value(family: Any, key: str) -> Any:
+    if key == "owner_score":   # the ownership score of the winning shaft, 0..1
+        candidates = getattr(family, "candidates", None) or {}
+        return candidates.get(getattr(family, "owner_shaft", None))
+    return getattr(family, key, None)
 SUSPECTS_TITLE = "Suspects - an aid to your judgement, not a verdict"
 
 
@@ -55,16 +64,15 @@ def _table(columns: list[str]) -> QTableWidget:
     return table
 
 
-def _fill(table: QTableWidget, rows: list[list[str]], colours: list[str | None] | None = None) -> None:
+def _fill(table: QTableWidget, rows: list[list[str]], colours: list[str | None] | None = None,
+          colour_column: int = 0) -> None:
     table.setRowCount(len(rows))
     for r, row in enumerate(rows):
         for c, text in enumerate(row):
             item = QTableWidgetItem(text)
-            if c > 0:
+            if c > 0 and not text[:1].isalpha():
                 item.setTextAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
-            if colours and c == 0 and colours[r]:
-                from PySide6.QtGui import QColor
-
+            if colours and c == colour_column and colours[r]:
                 item.setForeground(QColor(colours[r]))
             table.setItem(r, c, item)
 
@@ -109,8 +117,13 @@ class ResultsPanel(QWidget):
             rows.append([item.shaft, str(item.n_revs)] + [fmt(item.indicators.get(k)) for k in TSA_KEYS])
             colours.append(theme.shaft_colour(self.model, item.shaft))
         _fill(self.tsa, rows, colours)
-        rows = [[fmt(getattr(family, key, None)) for key, _ in SIDEBAND_COLUMNS] for family in analysis.sidebands]
-        _fill(self.sidebands, rows)
+        rows = [[fmt(_sideband_value(family, key)) for key, _ in SIDEBAND_COLUMNS] for family in analysis.sidebands]
+        _fill(self.sidebands, rows, [theme.shaft_colour(self.model, getattr(f, "owner_shaft", None))
+                                     for f in analysis.sidebands], colour_column=3)
+        for r, family in enumerate(analysis.sidebands):
+            evidence = getattr(family, "evidence", ()) or ()
+            for c in range(self.sidebands.columnCount()):
+                self.sidebands.item(r, c).setToolTip("\n".join(evidence))
         self.suspects.clear()
         for rank, suspect in enumerate(analysis.suspects, 1):
             evidence = "\n".join(f"  • {line}" for line in getattr(suspect, "evidence", ()) or ())

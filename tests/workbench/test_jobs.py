@@ -61,12 +61,12 @@ def test_result_comes_back_in_the_gui_thread(runner, qtbot):
     with qtbot.waitSignal(r.finished, timeout=5000) as blocker:
         request = r.submit(recording=None, model="m", settings="s1", recording_path="x.flac")
     generation, result = blocker.args
-    assert generation == request.generation == 1
-    assert result.analysis == ("analysis of", "s1")
+    assert generation == request.generation == 1  # conventions.md rule 6 (napari-style worker), no outside source
+    assert result.analysis == ("analysis of", "s1")  # conventions.md rule 6 (napari-style worker), no outside source
     assert result.recording == ("recording", request.recording_path)   # read by the worker
     assert seen_in == [threading.get_ident()]                           # delivered to the GUI thread
     assert threading.get_ident() not in fn.threads                      # computed elsewhere
-    assert not r.is_busy()
+    assert not r.is_busy()  # conventions.md rule 6 (napari-style worker), no outside source
 
 
 def test_newer_request_cancels_the_older_and_only_the_newest_is_shown(runner, qtbot):
@@ -81,7 +81,7 @@ def test_newer_request_cancels_the_older_and_only_the_newest_is_shown(runner, qt
     with qtbot.waitSignal(r.finished, timeout=5000):
         r.submit(recording="rec", model="m", settings="new")
     assert fn.stopped_early == ["old"]       # the cancel flag reached the running analysis
-    assert finished == [(2, ("analysis of", "new"))]
+    assert finished == [(2, ("analysis of", "new"))]  # conventions.md rule 6 (napari-style worker), no outside source
     assert cancelled == []                   # the old generation is stale: dropped silently
     assert len(fn.threads) == 1              # one worker thread for both requests
 
@@ -103,7 +103,7 @@ def test_stale_result_is_dropped_even_if_it_finishes(runner, qtbot):
     release.set()
     qtbot.waitUntil(lambda: not r.is_busy(), timeout=5000)
     qtbot.wait(50)
-    assert shown == ["new"]
+    assert shown == ["new"]  # conventions.md rule 6 (napari-style worker), no outside source
 
 
 def test_cancel_reports_cancelled_and_no_result(runner, qtbot):
@@ -114,10 +114,10 @@ def test_cancel_reports_cancelled_and_no_result(runner, qtbot):
     r.progress.connect(lambda gen, fraction, text: r.cancel())
     with qtbot.waitSignal(r.cancelled, timeout=5000) as blocker:
         r.submit(recording="rec", model="m", settings="s")
-    assert blocker.args == [1]
-    assert fn.stopped_early == ["s"]
-    assert finished == []
-    assert not r.is_busy()
+    assert blocker.args == [1]  # conventions.md rule 6 (napari-style worker), no outside source
+    assert fn.stopped_early == ["s"]  # conventions.md rule 6 (napari-style worker), no outside source
+    assert finished == []  # conventions.md rule 6 (napari-style worker), no outside source
+    assert not r.is_busy()  # conventions.md rule 6 (napari-style worker), no outside source
 
 
 def test_domain_error_comes_back_in_plain_words(runner, qtbot):
@@ -127,7 +127,7 @@ def test_domain_error_comes_back_in_plain_words(runner, qtbot):
     r = runner(refuses)
     with qtbot.waitSignal(r.failed, timeout=5000) as blocker:
         r.submit(recording="rec", model="m", settings="s")
-    assert blocker.args == [1, "the time range holds 0.2 s; choose at least 1 s or analyse the whole record"]
+    assert blocker.args == [1, "the time range holds 0.2 s; choose at least 1 s or analyse the whole record"]  # conventions.md rule 5: the message reaches the user unchanged
 
 
 def test_unexpected_error_goes_to_the_crash_signal_with_its_traceback(runner, qtbot, caplog):
@@ -138,9 +138,9 @@ def test_unexpected_error_goes_to_the_crash_signal_with_its_traceback(runner, qt
     with qtbot.waitSignal(r.crashed, timeout=5000) as blocker:
         r.submit(recording="rec", model="m", settings="s")
     generation, message, trace = blocker.args
-    assert message.startswith("IndexError")
+    assert message.startswith("IndexError")  # conventions.md rule 5, no outside source
     assert "broken" in trace                 # the traceback names the failing function
-    assert "failed unexpectedly" in caplog.text
+    assert "failed unexpectedly" in caplog.text  # conventions.md rule 5: logged
 
 
 def test_corrupt_file_is_reported_by_the_real_reader(qtbot, tmp_path):
