@@ -50,11 +50,12 @@ class Cepstrum:
     values : numpy.ndarray
         ``c[m] = IFFT(ln(|X| + eps))[m]`` (dimensionless).
     sample_rate_hz : float
-        Sample rate of the signal (the quefrency step is ``1/fs``).
+        Quefrency sample rate: the quefrency step is ``1 / sample_rate_hz``
+        (the signal's sample rate, or ``2 max_freq_hz`` for a band-limited cepstrum).
     eps : float
         Constant added to ``|X|`` before the logarithm.
     n : int
-        Number of samples of the signal.
+        Length of the inverse FFT (the signal's length, unless band-limited).
     """
 
     quefrency_s: np.ndarray
@@ -125,7 +126,7 @@ def _eps_for(mag: np.ndarray, eps: float | None) -> float:
     return eps
 
 
-def cepstrum_from_rfft(full: FullSpectrum, *, eps: float | None = None) -> Cepstrum:
+def cepstrum_from_rfft(full: FullSpectrum, *, eps: float | None = None, max_freq_hz: float | None = None) -> Cepstrum:
     """Real cepstrum from the shared rfft of the whole record (one inverse FFT).
 
     Parameters
@@ -135,6 +136,11 @@ def cepstrum_from_rfft(full: FullSpectrum, *, eps: float | None = None) -> Cepst
     eps : float, optional
         Added to ``|X|`` before the logarithm to avoid ``ln 0``; default
         ``1e-10 * max|X|`` (200 dB below the largest line).
+    max_freq_hz : float, optional
+        Use the log spectrum only up to this frequency (e.g. the highest mesh
+        harmonic of interest).  The inverse FFT is then shorter and the
+        quefrency step becomes ``1 / (2 max_freq_hz)`` s instead of ``1/fs``;
+        the longest quefrency (half the record) is unchanged.
 
     Returns
     -------
@@ -144,7 +150,9 @@ def cepstrum_from_rfft(full: FullSpectrum, *, eps: float | None = None) -> Cepst
     -----
     ``c = IFFT(ln(|X| + eps))`` with the inverse real FFT of length ``n``; only
     quefrencies ``0 .. n//2`` are kept because the real cepstrum of a real
-    signal is even.
+    signal is even.  With ``max_freq_hz`` the bins ``0 .. K`` (``K`` the bin of
+    ``max_freq_hz``) are inverse transformed with length ``2K``, as if the
+    signal had been low-pass filtered and resampled at ``2 max_freq_hz``.
 
     References
     ----------
@@ -154,16 +162,29 @@ def cepstrum_from_rfft(full: FullSpectrum, *, eps: float | None = None) -> Cepst
     .. [2] B. P. Bogert, M. J. R. Healy, J. W. Tukey, "The quefrency alanysis of
        time series for echoes", Proc. Symposium on Time Series Analysis, 1963.
     """
-    mag = np.abs(full.X)
+    X = full.X
+    n = full.n
+    fs_q = full.fs
+    if max_freq_hz is not None:
+        f_max = float(max_freq_hz)
+        if not (np.isfinite(f_max) and f_max > 0):
+            raise AnalysisError(f"max_freq_hz={max_freq_hz} must be a positive frequency in Hz.")
+        k = int(round(f_max / full.resolution_hz))
+        if k < X.size - 1:
+            k = max(k, 2)
+            X = X[: k + 1]
+            n = 2 * k
+            fs_q = n * full.resolution_hz
+    mag = np.abs(X)
     e = _eps_for(mag, eps)
-    c = np.fft.irfft(np.log(mag + mag.dtype.type(e)), n=full.n)
-    half = c[: full.n // 2 + 1].copy()
+    c = np.fft.irfft(np.log(mag + mag.dtype.type(e)), n=n)
+    half = c[: n // 2 + 1].copy()
     return Cepstrum(
-        quefrency_s=_readonly(np.arange(half.size) / full.fs),
+        quefrency_s=_readonly(np.arange(half.size) / fs_q),
         values=_readonly(half),
-        sample_rate_hz=full.fs,
+        sample_rate_hz=fs_q,
         eps=e,
-        n=full.n,
+        n=n,
     )
 
 

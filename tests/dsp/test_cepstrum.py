@@ -121,3 +121,15 @@ def test_noise_gives_no_rahmonic_support():
         # of the cepstral floor (common practice 3-sigma threshold, no source)
         assert rh.prominence < 3.0
         assert rh.support == 0.0
+
+
+def test_band_limited_cepstrum_keeps_the_rahmonics():
+    y = impulse_train_through_resonance(0)
+    full = rfft_full(y, FS)
+    c = cepstrum_from_rfft(full, max_freq_hz=5000.0)
+    assert c.sample_rate_hz == pytest.approx(10_000.0)  # quefrency step 1/(2 f_max)
+    assert c.quefrency_s[-1] == pytest.approx(N / FS / 2)  # longest quefrency unchanged: half the record
+    # domain-reference 6: the 50 Hz family still gives its rahmonic at 20 ms (now +- 1 sample of 0.1 ms)
+    sel = (c.quefrency_s >= 0.005) & (c.quefrency_s <= 0.03)
+    assert abs(c.quefrency_s[sel][np.argmax(c.values[sel])] - 0.020) <= 1 / c.sample_rate_hz
+    np.testing.assert_allclose(rahmonic_strength(c, 50.0, 3).quefrency_s, [0.02, 0.04, 0.06], atol=1e-4)
