@@ -260,24 +260,36 @@ class _Angles:
         s2, s3 = s * s, s * s * s
         self._h = (2 * s3 - 3 * s2 + 1, s3 - 2 * s2 + s, -2 * s3 + 3 * s2, s3 - s2)
         self._dh = tuple(d / _BLOCK for d in (6 * s2 - 6 * s, 3 * s2 - 4 * s + 1, -6 * s2 + 6 * s, 3 * s2 - 2 * s))
+        self._h32 = tuple(h.astype(np.float32) for h in self._h)
+        self._dh32 = tuple(h.astype(np.float32) for h in self._dh)
+        self._om32 = self._om.astype(np.float32)
 
-    def chunk(self, j0: int, j1: int, theta: np.ndarray, dtheta: np.ndarray):
-        """Angle (rev) and angle spanned (rev) of the samples of blocks j0..j1-1, into the buffers."""
+    def chunk(self, j0: int, j1: int, delta: np.ndarray, dtheta: np.ndarray):
+        """Angles of the samples of blocks j0..j1-1 relative to each block's start.
+
+        Returns ``delta`` (rev since the block's first sample) and ``dtheta`` (rev
+        spanned by each sample), float32 arrays of shape (j1 - j0, _BLOCK) written into
+        the buffers.  The block's own angle ``block_theta[j]`` stays float64, so the
+        absolute angle keeps full precision while the per-sample work is float32.
+        """
         m = j1 - j0
-        th0, th1 = self.block_theta[j0:j1, None], self.block_theta[j0 + 1:j1 + 1, None]
-        om0, om1 = self._om[j0:j1, None], self._om[j0 + 1:j1 + 1, None]
-        h00, h10, h01, h11 = self._h
-        th = theta[: m * _BLOCK].reshape(m, _BLOCK)
-        np.multiply(th0, h00, out=th)
-        th += th1 * h01
-        th += om0 * h10
-        th += om1 * h11
-        d00, d10, d01, d11 = self._dh
-        dth = dtheta[: m * _BLOCK].reshape(m, _BLOCK)
-        np.multiply(th1 - th0, d01, out=dth)        # d00 = -d01
+        step = (self.block_theta[j0 + 1:j1 + 1] - self.block_theta[j0:j1]).astype(np.float32)[:, None]
+        om0 = self._om32[j0:j1, None]
+        om1 = self._om32[j0 + 1:j1 + 1, None]
+        h00, h10, h01, h11 = self._h32
+        d00, d10, d01, d11 = self._dh32
+        de = delta[: m * _BLOCK].reshape(m, _BLOCK)
+        tmp = dtheta[: m * _BLOCK].reshape(m, _BLOCK)
+        np.multiply(step, h01, out=de)
+        np.multiply(om0, h10, out=tmp)
+        de += tmp
+        np.multiply(om1, h11, out=tmp)
+        de += tmp
+        dth = tmp
+        np.multiply(om1, d11, out=dth)
         dth += om0 * d10
-        dth += om1 * d11
-        return theta[: m * _BLOCK], dtheta[: m * _BLOCK]
+        dth += step * d01
+        return de, dth
 
     def speed_range(self, lo_rev: float, hi_rev: float) -> tuple[float, float]:
         """Min and max speed (tach-shaft Hz) between two tach angles."""
@@ -322,7 +334,7 @@ class _Shaft:
         # interior samples (weight 1): strictly more than _EDGE_HALF samples from both boundaries
         self.k0 = int(math.floor(self.u_a + _EDGE_HALF)) + 1
         self.k1 = int(math.ceil(self.u_b - _EDGE_HALF))          # exclusive
-        self.grid = np.zeros(G)
+        self.grid = np.zeros(G, dtype=np.float32)
         smin, smax = ang.speed_range(a / r, (a + N) / r)
         self.shaft_min_hz, self.shaft_max_hz = smin * r, smax * r
         k_nyq = int(math.floor(fs / (2.0 * self.shaft_max_hz) * (1 - 1e-9)))
@@ -331,26 +343,47 @@ class _Shaft:
             kmax = min(kmax, int(max_order))
         self.kmax = max(kmax, 0)
 
-    def spread(self, theta, y, buf_g, buf_n, buf_y1):
-        """Add samples with tach angles ``theta`` and weights ``y`` to the grid (linear kernel)."""
-        m = theta.size
-        g = np.multiply(theta, self.r * self.G, out=buf_g[:m])
-        n = buf_n[:m]
-        n[...] = g                       # truncation = floor (angles are >= 0 here)
-        g -= n                           # fractional part
-        y1 = np.multiply(y, g, out=buf_y1[:m])
+    def _wrap(self, n: np.ndarray) -> None:
+        if self.mask is not None:
+            np.bitwise_and(n, self.mask, out=n)
+        else:
+            np.remainder(n, self.G, out=n)
+
+    def spread_blocks(self, block_theta, delta, y, buf_g, buf_n, buf_y1):
+        """Spread samples given as block angle (float64) + offsets (float32) with weights y.
+
+        ``block_theta`` has shape (m,), ``delta`` and ``y`` shape (m, _BLOCK).
+        """
+        m = delta.shape[0]
+        scale = self.r * self.G
+        base = block_theta * scale                       # grid position of each block start
+        base_int = np.floor(base)
+        base_frac = (base - base_int).astype(np.float32)[:, None]
+        base_cell = (base_int.astype(np.int64) % self.G)[:, None]
+        g = buf_g[: m * _BLOCK].reshape(m, _BLOCK)
+        np.multiply(delta, np.float32(scale), out=g)
+        g += base_frac
+        n = buf_n[: m * _BLOCK].reshape(m, _BLOCK)
+        n[...] = g                                       # truncation = floor (g >= 0)
+        g -= n                                           # fractional part, float32
+        y1 = np.multiply(y, g, out=buf_y1[: m * _BLOCK].reshape(m, _BLOCK))
         y0 = np.subtract(y, y1, out=g)
-        if self.mask is not None:
-            np.bitwise_and(n, self.mask, out=n)
-        else:
-            np.remainder(n, self.G, out=n)
-        np.add.at(self.grid, n, y0)
+        n += base_cell
+        self._wrap(n)
+        np.add.at(self.grid, n.ravel(), y0.ravel())
         n += 1
-        if self.mask is not None:
-            np.bitwise_and(n, self.mask, out=n)
-        else:
-            np.remainder(n, self.G, out=n)
-        np.add.at(self.grid, n, y1)
+        self._wrap(n)
+        np.add.at(self.grid, n.ravel(), y1.ravel())
+
+    def spread_exact(self, theta, y):
+        """Spread a few samples with float64 angles ``theta`` (tach rev) and weights ``y``."""
+        g = theta * (self.r * self.G)
+        n = np.floor(g)
+        mu = g - n
+        n = n.astype(np.int64)
+        c0 = n % self.G
+        np.add.at(self.grid, c0, (y * (1 - mu)).astype(np.float32))
+        np.add.at(self.grid, (c0 + 1) % self.G, (y * mu).astype(np.float32))
 
     def add_edges(self, xs, ang: _Angles):
         """Samples within _EDGE_HALF of a boundary, weighted by a smooth (erf) step."""
@@ -369,14 +402,13 @@ class _Shaft:
         theta = np.asarray(prof.angle_rev(t), dtype=np.float64)
         dth = np.asarray(prof.speed_hz(t), dtype=np.float64) / fs
         y = xs[idx].astype(np.float64) * dth * w
-        m = idx.size
-        self.spread(theta, y, np.empty(m), np.empty(m, np.int64), np.empty(m))
+        self.spread_exact(theta, y)
 
     def coefficients(self) -> np.ndarray:
         import scipy.fft
 
         P, G = self.P, self.G
-        spec = scipy.fft.rfft(self.grid)[: P // 2 + 1]
+        spec = scipy.fft.rfft(self.grid)[: P // 2 + 1].astype(np.complex128)
         kk = np.arange(P // 2 + 1, dtype=np.float64)
         coef = spec * (self.r / self.N) / np.sinc(kk / G) ** 2
         coef[self.kmax + 1:] = 0.0
@@ -389,18 +421,28 @@ def _average_shafts(xs: np.ndarray, ang: _Angles, shafts: list[_Shaft]) -> None:
     hi = max(s.k1 for s in shafts)
     j_lo, j_hi = lo // _BLOCK, -(-hi // _BLOCK)
     C = _CHUNK_BLOCKS * _BLOCK
-    theta, dtheta = np.empty(C), np.empty(C)
-    buf_g, buf_y1 = np.empty(C), np.empty(C)
+    delta, dtheta = np.empty(C, np.float32), np.empty(C, np.float32)
+    buf_g, buf_y1, buf_y = np.empty(C, np.float32), np.empty(C, np.float32), np.empty(C, np.float32)
     buf_n = np.empty(C, dtype=np.int64)
     for j0 in range(j_lo, j_hi, _CHUNK_BLOCKS):
         j1 = min(j0 + _CHUNK_BLOCKS, j_hi)
-        th, y = ang.chunk(j0, j1, theta, dtheta)
-        c0 = j0 * _BLOCK
-        np.multiply(y, xs[c0: c0 + y.size], out=y)
+        m = j1 - j0
+        de, y = ang.chunk(j0, j1, delta, dtheta)
+        c0, c1 = j0 * _BLOCK, j1 * _BLOCK
+        np.multiply(y, xs[c0:c1].reshape(m, _BLOCK), out=y)
+        th0 = ang.block_theta[j0:j1]
         for s in shafts:
-            a, b = max(s.k0, c0), min(s.k1, c0 + y.size)
-            if b > a:
-                s.spread(th[a - c0: b - c0], y[a - c0: b - c0], buf_g, buf_n, buf_y1)
+            if s.k1 <= c0 or s.k0 >= c1:
+                continue
+            if s.k0 > c0 or s.k1 < c1:                  # a boundary falls in this chunk
+                ys = buf_y[: m * _BLOCK].reshape(m, _BLOCK)
+                ys[...] = y
+                flat = ys.reshape(-1)
+                flat[: max(s.k0 - c0, 0)] = 0.0
+                flat[max(s.k1 - c0, 0):] = 0.0
+            else:
+                ys = y
+            s.spread_blocks(th0, de, ys, buf_g, buf_n, buf_y1)
     for s in shafts:
         s.add_edges(xs, ang)
 
