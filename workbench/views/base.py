@@ -138,3 +138,16 @@ def tick_segments(positions: np.ndarray, y0: float, y1: float) -> tuple[np.ndarr
     x = np.repeat(positions, 2)
     y = np.tile([y0, y1], positions.size)
     return x, y
+
+
+def place_mark(line: pg.InfiniteLine, value: float, text: str, pen) -> None:
+    """Show a reused vertical mark at ``value`` with label ``text``.
+
+    The line is made visible before its label text is set: pyqtgraph skips label
+    updates of hidden lines.
+    """
+    line.setPen(pen)
+    line.setVisible(True)
+    line.label.setFormat(text)
+    line.setValue(value)
+    line.label.valueChanged()

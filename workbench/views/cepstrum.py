@@ -11,7 +11,7 @@ import numpy as np
 import pyqtgraph as pg
 
 from workbench import theme
-from workbench.views.base import AnalysisView
+from workbench.views.base import AnalysisView, place_mark
 
 N_RAHMONICS = 5
 MIN_QUEFRENCY_MS = 1.0
@@ -29,9 +29,10 @@ class CepstrumView(AnalysisView):
         self.curve.setClipToView(True)
         self.curve.setDownsampling(auto=True, method="peak")
         self.marks = []
-        for _ in range(N_RAHMONICS):
+        for i in range(N_RAHMONICS):
             line = pg.InfiniteLine(angle=90, movable=False, label="",
-                                   labelOpts={"position": 0.92, "color": theme.FOREGROUND})
+                                   labelOpts={"position": 0.96 - 0.045 * (i % 2), "color": theme.FOREGROUND,
+                                              "fill": (255, 255, 255, 210)})
             line.setVisible(False)
             self.plot.addItem(line, ignoreBounds=True)
             self.marks.append(line)
@@ -58,10 +59,8 @@ class CepstrumView(AnalysisView):
         marks = self.rahmonics_ms()
         for i, line in enumerate(self.marks):
             if i < marks.size and marks[i] <= q_ms[-1]:
-                line.setPen(pg.mkPen(colour, width=1, style=pg.QtCore.Qt.PenStyle.DashLine))
-                line.label.setFormat(f"{i + 1}/{shaft}" if i else f"1/{shaft}")
-                line.setValue(float(marks[i]))
-                line.setVisible(True)
+                place_mark(line, float(marks[i]), f"{i + 1}/f {shaft}" if i == 0 else f"{i + 1}/f",
+                           pg.mkPen(colour, width=1, style=pg.QtCore.Qt.PenStyle.DashLine))
             else:
                 line.setVisible(False)
         # the first millisecond holds the smooth spectral envelope: leave it out of the y scale

@@ -13,7 +13,7 @@ import pyqtgraph as pg
 from PySide6.QtWidgets import QCheckBox
 
 from workbench import theme
-from workbench.views.base import AnalysisView
+from workbench.views.base import AnalysisView, place_mark
 
 N_MARKS = 10
 BEARING_KEYS = (("bpfo_hz", "BPFO"), ("bpfi_hz", "BPFI"), ("bsf_hz", "BSF"), ("ftf_hz", "FTF"))
@@ -107,10 +107,7 @@ class EnvelopeView(AnalysisView):
             if mark is None:
                 line.setVisible(False)
                 continue
-            line.setPen(pg.mkPen(mark[2], width=1, style=pg.QtCore.Qt.PenStyle.DashLine))
-            line.label.setFormat(mark[0])
-            line.setValue(mark[1])
-            line.setVisible(True)
+            place_mark(line, mark[1], mark[0], pg.mkPen(mark[2], width=1, style=pg.QtCore.Qt.PenStyle.DashLine))
 
     def _draw_kurtogram(self, show: bool) -> None:
         self.kurt_widget.setVisible(show)

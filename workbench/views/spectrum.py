@@ -15,7 +15,7 @@ import pyqtgraph as pg
 from PySide6.QtWidgets import QCheckBox, QComboBox, QDoubleSpinBox, QHBoxLayout, QLabel, QPushButton
 
 from workbench import theme
-from workbench.views.base import AnalysisView, convert_acceleration, positive_for_log
+from workbench.views.base import AnalysisView, convert_acceleration, place_mark, positive_for_log
 
 X_CHOICES = (("hz", "Hz"), ("cpm", "CPM"), ("order", "orders"))
 Y_CHOICES = (("g", "g"), ("m/s2", "m/s²"), ("mm/s", "mm/s"))
@@ -215,10 +215,7 @@ class SpectrumView(AnalysisView):
             if mark is None:
                 line.setVisible(False)
                 continue
-            line.setPen(pg.mkPen(colour, width=1, style=pg.QtCore.Qt.PenStyle.DashLine))
-            line.label.setFormat(mark[0])
-            line.setValue(mark[1])
-            line.setVisible(True)
+            place_mark(line, mark[1], mark[0], pg.mkPen(colour, width=1, style=pg.QtCore.Qt.PenStyle.DashLine))
 
 
 def _spin(prefix: str, suffix: str, lo: float, hi: float, value: float) -> QDoubleSpinBox:
