@@ -78,6 +78,16 @@ def test_demo_opens_with_every_view_drawn(qtbot, window):
     x_ord, y = spectrum.curve.getData()
     near = (x_ord > 22.5) & (x_ord < 23.5)
     assert x_ord[near][np.argmax(y[near])] == pytest.approx(23.0, abs=0.05)   # the mesh line is at 23 orders
+    # amplitude in m/s2: 1 g = 9.80665 m/s2 exactly (3rd CGPM 1901; domain reference 8)
+    window.session.set_view_options(spectrum_x="hz", spectrum_units="g")
+    _, y_g = spectrum.curve.getData()
+    window.session.set_view_options(spectrum_units="m/s2")
+    _, y_ms2 = spectrum.curve.getData()
+    np.testing.assert_allclose(y_ms2, 9.80665 * y_g, rtol=1e-12)  # 3rd CGPM 1901: g_n = 9.80665 m/s2
+    # zoom band: the x axis shows exactly the band asked for
+    window.session.set_view_options(spectrum_zoom_hz=(500.0, 650.0))
+    (x0, x1), _ = spectrum.plot.getViewBox().viewRange()
+    assert (x0, x1) == pytest.approx((500.0, 650.0))  # common practice, no source
     # the results panel reads as an aid, not a verdict
     assert "not a verdict" in SUSPECTS_TITLE  # README: an aid to judgement, not a verdict
     assert window.results.overall.rowCount() >= 5  # design.md overall keys: rms, peak, crest, kurtosis, velocity

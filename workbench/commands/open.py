@@ -117,6 +117,11 @@ def run(args) -> int:
     def start() -> None:
         timer.mark("first_paint")
         window.open_recording(recording, model)
+        if screenshot is not None and not window.is_busy():
+            # nothing was started: the model could not be used; the banner says why
+            problem = window.banner.plain_text().replace("\n", "; ") or "nothing to analyse"
+            finish(2, problem)
+            return
         if args.shaft:
             names = window.session.model.shaft_names() if window.session.model is not None else ()
             if args.shaft not in names:
