@@ -426,6 +426,11 @@ def _axis(freq_hz, amplitude) -> tuple[np.ndarray, np.ndarray]:
 def bin_index(freq_hz, f0_hz):
     """Index of the line nearest to ``f0_hz`` on the increasing axis ``freq_hz`` (vectorised, O(log n))."""
     f = np.asarray(freq_hz)
+    if np.ndim(f0_hz) == 0:   # scalar fast path (cursor readouts call this on every move)
+        x = float(f0_hz)
+        j = min(max(int(np.searchsorted(f, x)), 1), max(f.size - 1, 1))
+        lo, hi = min(j - 1, f.size - 1), min(j, f.size - 1)
+        return lo if abs(x - f[lo]) <= abs(f[hi] - x) else hi
     x = np.asarray(f0_hz, dtype=float)
     i = np.clip(np.searchsorted(f, x), 1, max(f.size - 1, 1))
     lo = np.clip(i - 1, 0, f.size - 1)

@@ -24,7 +24,8 @@ Performance: each (family, colour) pair is ONE ``PlotCurveItem`` drawn with
 ``connect="pairs"``, created once and updated with ``setData``; all are added
 with ``ignoreBounds=True`` so they never change the autorange.  Hovering finds
 the nearest line with one binary search and shows what it is in one reused
-text item.
+text item; it stays hidden while something is dragged (a cursor drag must not
+pay for it).
 """
 
 from __future__ import annotations
@@ -279,7 +280,8 @@ class ModelOverlay(QObject):
 
     def _on_mouse_moved(self, scene_pos) -> None:
         vb = self.plot_item.getViewBox()
-        if self._hover_x.size == 0 or not vb.sceneBoundingRect().contains(scene_pos):
+        dragging = bool(getattr(self.plot_item.scene(), "dragButtons", None))
+        if dragging or self._hover_x.size == 0 or not vb.sceneBoundingRect().contains(scene_pos):
             self.hover_item.setVisible(False)
             return
         point = vb.mapSceneToView(scene_pos)

@@ -7,6 +7,7 @@ shaft of the 40/15 pair; that shaft is the truth the sideband cursor must name.
 from __future__ import annotations
 
 import math
+import time
 from pathlib import Path
 
 import numpy as np
@@ -77,7 +78,9 @@ def _drag(plot_item, x0: float, x1: float, y: float, steps: int = 6) -> None:
         QApplication.sendEvent(view.viewport(), event)
 
     send(QEvent.Type.MouseButtonPress, to_widget(x0), Qt.MouseButton.LeftButton)
+    gap_s = 1.0 / max(float(pg.getConfigOption("mouseRateLimit")), 1e-9) + 0.002
     for x in np.linspace(x0, x1, steps)[1:]:
+        time.sleep(gap_s)  # pyqtgraph drops moves closer together than its mouse rate limit
         send(QEvent.Type.MouseMove, to_widget(x), Qt.MouseButton.LeftButton)
     send(QEvent.Type.MouseButtonRelease, to_widget(x1), Qt.MouseButton.NoButton)
 
