@@ -233,19 +233,84 @@ def _speed(recording, model, x: np.ndarray, i0: int, i1: int, fs: float, referen
     return profile, None
 
 
-def _overall(x: np.ndarray, velocity_rms: float, quality) -> dict[str, Any]:
-    from . import indicators as ind
+#: Samples per block for the whole-record moments (keeps float64 temporaries small).
+_BLOCK = 1 << 20
 
-    xd = np.asarray(x, dtype=np.float64)
+
+def _overall(x: np.ndarray, velocity_rms: float, quality) -> dict[str, Any]:
+    """RMS, peak, crest factor and Pearson kurtosis of the whole record, block by block.
+
+    The same formulas as :mod:`dsp.indicators` (``rms`` keeps the mean,
+    kurtosis ``N sum d^4 / (sum d^2)^2`` with ``d = x - mean``), accumulated in
+    float64 over blocks so that no full-length float64 copy is made.
+    """
+    n = x.size
+    s1 = 0.0
+    peak = 0.0
+    for i in range(0, n, _BLOCK):
+        b = x[i:i + _BLOCK].astype(np.float64)
+        s1 += float(b.sum())
+        peak = max(peak, float(np.max(np.abs(b))))
+    mean = s1 / n
+    s2 = m2 = m4 = 0.0
+    for i in range(0, n, _BLOCK):
+        b = x[i:i + _BLOCK].astype(np.float64)
+        s2 += float(np.dot(b, b))
+        b -= mean
+        b *= b
+        m2 += float(b.sum())
+        m4 += float(np.dot(b, b))
+    rms = math.sqrt(s2 / n)
     return {
-        "rms": float(ind.rms(xd)),
-        "peak": float(ind.peak(xd)),
-        "crest_factor": float(ind.crest_factor(xd)),
-        "kurtosis": float(ind.kurtosis(xd)),
+        "rms": rms,
+        "peak": peak,
+        "crest_factor": peak / rms if rms > 0 else math.nan,
+        "kurtosis": n * m4 / (m2 * m2) if m2 > 0 else math.nan,
         "velocity_rms_mm_s": float(velocity_rms),
         "clipped": bool(quality.clipped),
         "clipped_fraction": float(quality.clipped_fraction),
     }
+
+
+def _smooth_length(n: int) -> int:
+    """Smallest even 2^a 3^b 5^c >= n (fast FFT length)."""
+    best = None
+    p2 = 2
+    while p2 < 2 * n:
+        p3 = p2
+        while p3 < 2 * n:
+            p5 = p3
+            while p5 < n:
+                p5 *= 5
+            best = p5 if best is None else min(best, p5)
+            p3 *= 3
+        p2 *= 2
+    return int(best)
+
+
+def _low_band(full, f_keep_hz: float):
+    """The band 0..f_keep_hz of the shared rfft as the rfft of a shorter, decimated signal.
+
+    Keeping the first ``m`` bins of the rfft of ``n`` samples and reading them as the
+    rfft of ``n' = 2 (m' - 1)`` samples (bins ``m..m'-1`` zero) is an ideal low-pass
+    and resampling to ``fs n'/n`` (scaled by ``n'/n`` so amplitudes stay).  Returns
+    ``(FullSpectrum, signal)`` or ``None`` when no decimation is possible.
+    """
+    from .spectrum import FullSpectrum
+
+    df = full.fs / full.n
+    m = int(math.ceil(f_keep_hz / df)) + 1
+    n_out = _smooth_length(2 * int(math.ceil(m / 0.8)))   # 20 % guard band of zeros below the new Nyquist
+    m_out = n_out // 2 + 1
+    if n_out >= 0.6 * full.n or m >= full.X.size:
+        return None
+    X = np.zeros(m_out, dtype=full.X.dtype)
+    X[:m] = full.X[:m]
+    X *= X.real.dtype.type(n_out / full.n)
+    X.setflags(write=False)
+    fs_out = full.fs * n_out / full.n
+    y = np.fft.irfft(X, n_out).astype(np.float32, copy=False)
+    return FullSpectrum(X=X, n=n_out, fs=fs_out), y
 
 
 def _derived(res, name: str, table, model, settings: Settings) -> ShaftTSA:
@@ -518,7 +583,7 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
             zoom = zoom_spectrum(full, None, gmf, span, window=settings.window, scaling=settings.spectrum_scaling,
                                  units=sensor.units)
 
-    # --- order spectrum ---------------------------------------------------
+    # --- order spectrum (on the low band of the shared rfft) ---------------
     step(0.2, "order spectrum")
     from .orders import order_spectrum
 
@@ -528,9 +593,13 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
     if max_order is None:
         max_order = (settings.n_mesh_harmonics + 0.5) * max_gmf_order
     max_order = float(min(max_order, 0.45 * fs / profile.max_hz))
-    ospec = order_spectrum(x, fs, profile, max_order=max_order, window="hann")
+    low = _low_band(full, 1.3 * max_order * profile.max_hz)
+    lx, lfs = (low[1], low[0].fs) if low is not None else (x, fs)
+    max_order = float(min(max_order, 0.45 * lfs / profile.max_hz))
+    ospec = order_spectrum(lx, lfs, profile, max_order=max_order, window="hann")
+    del lx
 
-    # --- TSA per shaft ----------------------------------------------------
+    # --- TSA per shaft (full band: impacts ring at high frequencies) ---------
     from .tsa import tsa_shafts
 
     tsas: list[ShaftTSA] = []
@@ -544,10 +613,12 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
             )
             continue
         eligible[name] = orders[name]
-    for k, (name, order) in enumerate(eligible.items()):
-        step(0.3 + 0.3 * k / max(len(eligible), 1), f"TSA of shaft {name}")
-        res = tsa_shafts(x, fs, profile, {name: order}, samples_per_rev=settings.tsa_samples_per_rev)[0]
-        tsas.append(_derived(res, name, table, model, settings))
+    if eligible:
+        step(0.3, "TSA of shafts " + ", ".join(eligible))
+        results = tsa_shafts(x, fs, profile, eligible, samples_per_rev=settings.tsa_samples_per_rev)
+        for k, (name, res) in enumerate(zip(eligible, results)):
+            step(0.5 + 0.1 * k / len(eligible), f"TSA indicators of shaft {name}")
+            tsas.append(_derived(res, name, table, model, settings))
 
     # --- envelope ---------------------------------------------------------
     step(0.62, "envelope")
@@ -571,7 +642,8 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
     from .cepstrum import cepstrum_from_rfft, rahmonic_strength
     from .errors import GearbenchError
 
-    ceps = cepstrum_from_rfft(full)
+    # the cepstrum of the low band (mesh harmonics and their sidebands) from the shared rfft
+    ceps = cepstrum_from_rfft(low[0] if low is not None else full)
     ceps_support = {}
     ceps_prominence = {}
     for s in table.shafts:
@@ -635,7 +707,6 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
             "cepstrum_support": ceps_support,
             "cepstrum_prominence": ceps_prominence,
             "all_scores": all_scores,
-            "full_rfft": full,
             "speed_spread": spread,
         },
     )
@@ -696,7 +767,8 @@ def _json_dict(a: Analysis) -> dict[str, Any]:
         "sidebands": [
             {"mesh": f.mesh, "harmonic": f.harmonic, "carrier_hz": f.carrier_hz, "carrier_order": f.carrier_order,
              "owner_shaft": f.owner_shaft, "spacing_hz": f.spacing_hz, "spacing_order": f.spacing_order,
-             "n_found": f.n_found, "sideband_index": f.sideband_index,
+             "n_found": f.n_found, "expected": bool(getattr(f, "expected", False)),
+             "sideband_index": f.sideband_index,
              "sideband_level_factor": f.sideband_level_factor, "candidates": f.candidates,
              "evidence": list(f.evidence)}
             for f in a.sidebands

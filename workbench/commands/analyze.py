@@ -67,13 +67,15 @@ def format_summary(d: dict) -> str:
         out.append("Sideband families (owner shaft by spacing):")
         for f in d["sidebands"]:
             owner = f["owner_shaft"] or "none"
-            out.append(f"  {f['mesh']} x{f['harmonic']} at {f['carrier_hz']:.1f} Hz: owner {owner}, "
+            note = " (expected: planets passing the sensor)" if f.get("expected") else ""
+            out.append(f"  {f['mesh']} x{f['harmonic']} at {f['carrier_hz']:.1f} Hz: owner {owner}{note}, "
                        f"spacing {f['spacing_hz']:.2f} Hz, {f['n_found']} clear, SI {_num(f['sideband_index'])}, "
                        f"SLF {_num(f['sideband_level_factor'])}")
     env = d["envelope"]
     out.append(f"Envelope band {env['band_hz'][0]:.0f}-{env['band_hz'][1]:.0f} Hz ({env['band_source']}); "
-               + (", ".join(f"{m['label']} of {m['component']} ({m['n_clear']} harmonics)" for m in env["matches"])
-                  or "no bearing or shaft family stands clear"))
+               + (", ".join(f"{m['label']} of {m['component']} ({m['n_clear']} harmonics)"
+                            for m in env["matches"] if m["n_clear"] >= 2)
+                  or "no bearing or shaft family stands clear with two harmonics or more"))
     if d["suspects"]:
         out.append("Suspects (best first):")
         for i, s in enumerate(d["suspects"], 1):
