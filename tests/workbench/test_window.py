@@ -119,6 +119,7 @@ def test_switching_shaft_changes_the_tsa(qtbot, window):
     assert x[0] == 0.0 and x[-1] < 360.0 and len(x) == analysis.tsa_for("intermediate").samples_per_rev  # TSA angle axis 0-360 deg, one sample per angle step
     np.testing.assert_array_equal(y, analysis.tsa_for("intermediate").average)  # views draw dsp results unchanged (design.md)
     # the other views follow the same selection
+    window.session.set_current_view("speed")               # hidden views redraw when shown
     assert window.views["speed"].plot.getAxis("left").labelText.startswith("intermediate")  # common practice, no source
     rahmonic_ms = window.views["cepstrum"].rahmonics_ms()
     assert rahmonic_ms[0] == pytest.approx(1000.0 / table_row(window, "intermediate shaft").hz)  # 1/f_r (Randall 2017)

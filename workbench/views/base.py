@@ -34,6 +34,7 @@ class AnalysisView(QWidget):
         self.session = session
         self.analysis: Any = None
         self.recording: Any = None
+        self._stale = False
         self._layout = QVBoxLayout(self)
         self._layout.setContentsMargins(4, 4, 4, 4)
         self._layout.setSpacing(4)
@@ -62,7 +63,18 @@ class AnalysisView(QWidget):
         self.controls.addWidget(self.caption, 1)
 
     def _on_event(self, event: SessionEvent) -> None:
-        if self.analysis is not None:
+        if self.analysis is None and self.recording is None:
+            return
+        if self.isHidden():
+            # a tab page that is not shown redraws when it is shown: switching shaft stays quick
+            self._stale = True
+            return
+        self.refresh()
+
+    def showEvent(self, event):  # noqa: N802 - Qt override
+        super().showEvent(event)
+        if self._stale:
+            self._stale = False
             self.refresh()
 
     # -- API used by the window
@@ -70,6 +82,7 @@ class AnalysisView(QWidget):
         """Show a new analysis (``None`` clears nothing: the last result stays)."""
         self.analysis = analysis
         self.recording = recording
+        self._stale = False
         self.refresh()
 
     def clear(self) -> None:
