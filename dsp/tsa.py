@@ -334,7 +334,7 @@ class _Shaft:
         # interior samples (weight 1): strictly more than _EDGE_HALF samples from both boundaries
         self.k0 = int(math.floor(self.u_a + _EDGE_HALF)) + 1
         self.k1 = int(math.ceil(self.u_b - _EDGE_HALF))          # exclusive
-        self.grid = np.zeros(G, dtype=np.float32)
+        self.grid = np.zeros(G, dtype=np.complex64)   # (sum y, sum y mu) per left cell
         smin, smax = ang.speed_range(a / r, (a + N) / r)
         self.shaft_min_hz, self.shaft_max_hz = smin * r, smax * r
         k_nyq = int(math.floor(fs / (2.0 * self.shaft_max_hz) * (1 - 1e-9)))
@@ -349,7 +349,7 @@ class _Shaft:
         else:
             np.remainder(n, self.G, out=n)
 
-    def spread_blocks(self, block_theta, delta, y, buf_g, buf_n, buf_y1):
+    def spread_blocks(self, block_theta, delta, y, buf_g, buf_fl, buf_n, buf_v):
         """Spread samples given as block angle (float64) + offsets (float32) with weights y.
 
         ``block_theta`` has shape (m,), ``delta`` and ``y`` shape (m, _BLOCK).
@@ -359,31 +359,31 @@ class _Shaft:
         base = block_theta * scale                       # grid position of each block start
         base_int = np.floor(base)
         base_frac = (base - base_int).astype(np.float32)[:, None]
-        base_cell = (base_int.astype(np.int64) % self.G)[:, None]
+        base_cell = (base_int.astype(np.int64) % self.G).astype(np.int32)[:, None]
         g = buf_g[: m * _BLOCK].reshape(m, _BLOCK)
         np.multiply(delta, np.float32(scale), out=g)
         g += base_frac
+        fl = buf_fl[: m * _BLOCK].reshape(m, _BLOCK)
+        np.floor(g, out=fl)
+        g -= fl                                          # fractional part mu, float32
+        # one complex accumulation: real part sum(y), imaginary part sum(y * mu) per left cell;
+        # the linear kernel puts y (1 - mu) on the left cell and y mu on the right one
+        v = buf_v[: m * _BLOCK].reshape(m, _BLOCK)
+        v.real[...] = y
+        np.multiply(y, g, out=v.imag)
         n = buf_n[: m * _BLOCK].reshape(m, _BLOCK)
-        n[...] = g                                       # truncation = floor (g >= 0)
-        g -= n                                           # fractional part, float32
-        y1 = np.multiply(y, g, out=buf_y1[: m * _BLOCK].reshape(m, _BLOCK))
-        y0 = np.subtract(y, y1, out=g)
+        n[...] = fl
         n += base_cell
         self._wrap(n)
-        np.add.at(self.grid, n.ravel(), y0.ravel())
-        n += 1
-        self._wrap(n)
-        np.add.at(self.grid, n.ravel(), y1.ravel())
+        np.add.at(self.grid, n.ravel(), v.ravel())
 
     def spread_exact(self, theta, y):
         """Spread a few samples with float64 angles ``theta`` (tach rev) and weights ``y``."""
         g = theta * (self.r * self.G)
         n = np.floor(g)
         mu = g - n
-        n = n.astype(np.int64)
-        c0 = n % self.G
-        np.add.at(self.grid, c0, (y * (1 - mu)).astype(np.float32))
-        np.add.at(self.grid, (c0 + 1) % self.G, (y * mu).astype(np.float32))
+        c0 = n.astype(np.int64) % self.G
+        np.add.at(self.grid, c0, (y + 1j * (y * mu)).astype(np.complex64))
 
     def add_edges(self, xs, ang: _Angles):
         """Samples within _EDGE_HALF of a boundary, weighted by a smooth (erf) step."""
@@ -408,7 +408,11 @@ class _Shaft:
         import scipy.fft
 
         P, G = self.P, self.G
-        spec = scipy.fft.rfft(self.grid)[: P // 2 + 1].astype(np.complex128)
+        g0, g1 = self.grid.real, self.grid.imag
+        spread = g0 - g1
+        spread[1:] += g1[:-1]
+        spread[0] += g1[-1]
+        spec = scipy.fft.rfft(spread)[: P // 2 + 1].astype(np.complex128)
         kk = np.arange(P // 2 + 1, dtype=np.float64)
         coef = spec * (self.r / self.N) / np.sinc(kk / G) ** 2
         coef[self.kmax + 1:] = 0.0
@@ -422,8 +426,9 @@ def _average_shafts(xs: np.ndarray, ang: _Angles, shafts: list[_Shaft]) -> None:
     j_lo, j_hi = lo // _BLOCK, -(-hi // _BLOCK)
     C = _CHUNK_BLOCKS * _BLOCK
     delta, dtheta = np.empty(C, np.float32), np.empty(C, np.float32)
-    buf_g, buf_y1, buf_y = np.empty(C, np.float32), np.empty(C, np.float32), np.empty(C, np.float32)
-    buf_n = np.empty(C, dtype=np.int64)
+    buf_g, buf_fl, buf_y = np.empty(C, np.float32), np.empty(C, np.float32), np.empty(C, np.float32)
+    buf_v = np.empty(C, np.complex64)
+    buf_n = np.empty(C, dtype=np.int32)
     for j0 in range(j_lo, j_hi, _CHUNK_BLOCKS):
         j1 = min(j0 + _CHUNK_BLOCKS, j_hi)
         m = j1 - j0
@@ -442,7 +447,7 @@ def _average_shafts(xs: np.ndarray, ang: _Angles, shafts: list[_Shaft]) -> None:
                 flat[max(s.k1 - c0, 0):] = 0.0
             else:
                 ys = y
-            s.spread_blocks(th0, de, ys, buf_g, buf_n, buf_y1)
+            s.spread_blocks(th0, de, ys, buf_g, buf_fl, buf_n, buf_v)
     for s in shafts:
         s.add_edges(xs, ang)
 
