@@ -178,6 +178,8 @@ class AnalysisRunner(QObject):
 
     def submit(self, *, recording: Any, model: Any, settings: Any, recording_path: Path | None = None) -> AnalysisRequest:
         """Queue a new analysis; any older one is cancelled and its result will be dropped."""
+        if recording is None and recording_path is None:
+            raise ValueError("give the recording or the path to read it from")
         self.cancel()
         self._generation += 1
         request = AnalysisRequest(self._generation, recording, model, settings,

@@ -120,7 +120,11 @@ class Session:
         self.set_time_range(None)
 
     def set_model(self, model: Any, path: str | Path | None = ...) -> None:
-        """Replace the gear-train model; keeps the selected shaft when the new model still has it."""
+        """Replace the gear-train model; keeps the selected shaft when the new model still has it.
+
+        ``path`` is the model file it came from (``None``: not from a file); leave it out
+        to keep the current ``model_path`` (an edit in the form).
+        """
         if path is not ...:
             self.model_path = None if path is None else Path(path)
         if model == self.model:
