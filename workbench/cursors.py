@@ -126,7 +126,7 @@ class _Cursor(QObject):
     """Shared parts: the plot, the data read, markers, signals and keyboard nudges."""
 
     moved = Signal()        # while dragging: lines and readout changed
-    finished = Signal()     # a drag or nudge ended: tell the session
+    finished = Signal(str)  # a drag, nudge ("move") or snap ("snap") ended: tell the session
     grabbed = Signal()      # the user took this cursor (make it active)
 
     kind = ""
@@ -154,7 +154,7 @@ class _Cursor(QObject):
         line.setZValue(25)
         self.plot_item.addItem(line, ignoreBounds=True)
         line.sigPositionChanged.connect(self._on_line_moved)
-        line.sigPositionChangeFinished.connect(lambda *_: self.finished.emit())
+        line.sigPositionChangeFinished.connect(lambda *_: self.finished.emit("move"))
         line.sigDragged.connect(lambda *_, n=name: self._grab(n))
         line.sigClicked.connect(lambda *_, n=name: self._grab(n))
         return line
@@ -192,7 +192,7 @@ class _Cursor(QObject):
         """Move the active line by ``n_lines`` spectral lines."""
         step = self.data.bin_width if self.data is not None else 1.0
         self._nudge(n_lines * step)
-        self.finished.emit()
+        self.finished.emit("move")
 
     def _on_line_moved(self, *_args) -> None:
         if not self._guard:
@@ -411,7 +411,7 @@ class SidebandCursor(_Cursor):
             if shaft not in rates:
                 raise ValueError(f"unknown shaft {shaft!r}; choose one of {', '.join(rates)}")
             self.set_spacing(rates[shaft] * d.scale)
-        self.finished.emit()
+        self.finished.emit("snap")
 
     def snap_centre_to_peak(self, search: float | None = None) -> None:
         """Move the centre onto the nearest peak (within the tolerance and at least three lines, or ``search``)."""
@@ -421,7 +421,7 @@ class SidebandCursor(_Cursor):
         reach = max(d.tolerance(self.centre), 3.0 * d.bin_width) if search is None else float(search)
         f, _ = nearest_peak(d.x, d.amplitude, self.centre, search_hz=reach)
         self.set_centre(f)
-        self.finished.emit()
+        self.finished.emit("snap")
 
     def readout(self) -> Readout:
         d = self.data
@@ -517,6 +517,8 @@ class CursorSet(QObject):
         self.cursors: list[_Cursor] = []
         self.active: _Cursor | None = None
         self.last_peak: PeakInfo | None = None
+        self.last_change = ""
+        self.last_changed_index = -1
         self.peak_marker = pg.ScatterPlotItem(size=9, symbol="t", pen=pg.mkPen(CURSOR_PEN), brush=pg.mkBrush("#FFFFFF"))
         self.peak_marker.setZValue(26)
         plot_item.addItem(self.peak_marker, ignoreBounds=True)
@@ -539,11 +541,11 @@ class CursorSet(QObject):
     def _adopt(self, cursor: _Cursor, *, announce: bool = True) -> _Cursor:
         self.cursors.append(cursor)
         cursor.moved.connect(lambda c=cursor: self._on_moved(c))
-        cursor.finished.connect(self._emit_changed)
+        cursor.finished.connect(lambda reason, c=cursor: self._emit_changed(reason, c))
         cursor.grabbed.connect(lambda c=cursor: self.set_active(c))
         self.set_active(cursor)
         if announce:
-            self._emit_changed()
+            self._emit_changed("add")
         return cursor
 
     def _view_centre(self) -> float:
@@ -573,7 +575,7 @@ class CursorSet(QObject):
                 c.set_centre(carrier_hz * scale)
                 c.set_spacing(spacing_hz * scale)
                 self.set_active(c)
-                self._emit_changed()
+                self._emit_changed("move", c)
                 return c
         return self.add_sideband(carrier_hz * scale, spacing_hz * scale, n=n)
 
@@ -594,7 +596,7 @@ class CursorSet(QObject):
             self.active = None
             self.set_active(self.cursors[-1] if self.cursors else None)
             self.updated.emit()
-        self._emit_changed()
+        self._emit_changed("drop")
 
     def clear(self, *, announce: bool = True) -> None:
         for c in list(self.cursors):
@@ -603,7 +605,7 @@ class CursorSet(QObject):
         self.active = None
         self.updated.emit()
         if announce:
-            self._emit_changed()
+            self._emit_changed("clear")
 
     # -- session
     def to_list(self) -> list[dict[str, Any]]:
@@ -618,7 +620,10 @@ class CursorSet(QObject):
             clean = {k: v for k, v in d.items() if k != "view"}
             self._adopt(cursor_from_dict(clean, self.plot_item, self.data), announce=False)
 
-    def _emit_changed(self) -> None:
+    def _emit_changed(self, reason: str = "move", cursor: _Cursor | None = None) -> None:
+        """Tell the session; ``last_change`` says what happened ("add", "move", "snap", "drop", "clear")."""
+        self.last_change = reason
+        self.last_changed_index = self.cursors.index(cursor) if cursor in self.cursors else -1
         self.changed.emit(self.to_list())
 
     def _on_moved(self, cursor: _Cursor) -> None:
@@ -743,3 +748,129 @@ class CursorReadout(QWidget):
         """The table as text (for tests and copying)."""
         return [[self.table.item(r, c).text() for c in range(self.table.columnCount())]
                 for r in range(self.table.rowCount())]
+
+
+class CursorTools(QWidget):
+    """A toolbar row for one plot: add cursors, snap, clear, and the model-line switches and shaft legend.
+
+    It also keeps the session's ``cursors`` list (plain dicts, one ``view`` key each)
+    in step with the :class:`CursorSet`: the set's ``changed`` signal writes this
+    view's entries (through ``history.set_list`` when an undo history is given, else
+    through the session's ``set_cursors``), and a ``"cursors"`` event of the session
+    (undo, a session file opened) redraws the cursors saved for this view.
+
+    Parameters
+    ----------
+    cursor_set : CursorSet
+    overlay : workbench.overlays.ModelOverlay, optional
+        Its switches and legend are shown at the end of the row.
+    session : workbench.session.Session, optional
+    history : workbench.undo.UndoHistory, optional
+    """
+
+    def __init__(self, cursor_set: CursorSet, overlay=None, session=None, history=None,
+                 parent: QWidget | None = None):
+        from PySide6.QtWidgets import QHBoxLayout, QPushButton
+
+        super().__init__(parent)
+        self.cursor_set = cursor_set
+        self.overlay = overlay
+        self.session = session
+        self.history = history
+        layout = QHBoxLayout(self)
+        layout.setContentsMargins(0, 0, 0, 0)
+        layout.setSpacing(6)
+        self.buttons: dict[str, QPushButton] = {}
+        for key, text, tip, slot in (
+            ("harmonic", "Harmonic cursor", "A fundamental to drag; its harmonics follow "
+             "(arrow keys: one line, Shift: ten, Esc: drop)", lambda: cursor_set.add_harmonic()),
+            ("sideband", "Sideband cursor", "Drag the carrier line onto a mesh harmonic and the +1 line onto its "
+             "first upper sideband; the readout names the shaft whose rate equals the spacing",
+             lambda: cursor_set.add_sideband()),
+            ("snap_spacing", "Snap spacing", "Set the sideband spacing to the nearest shaft rate",
+             self._snap_spacing),
+            ("snap_centre", "Carrier to peak", "Move the sideband carrier onto the nearest peak", self._snap_centre),
+            ("clear", "Clear cursors", "Remove the cursors of this plot", lambda: cursor_set.clear()),
+        ):
+            button = QPushButton(text)
+            button.setToolTip(tip)
+            button.clicked.connect(lambda _=False, s=slot: s())
+            layout.addWidget(button)
+            self.buttons[key] = button
+        if overlay is not None:
+            self.legend = overlay.legend_widget()
+            layout.addWidget(self.legend, 1)
+        else:
+            layout.addStretch(1)
+        cursor_set.updated.connect(self._sync_buttons)
+        self._sync_buttons()
+        self._writing = False
+        self._unsubscribe = None
+        if session is not None:
+            cursor_set.changed.connect(self._write_session)
+            self._unsubscribe = session.subscribe(self._on_session_event)
+            self.destroyed.connect(lambda *_: self._unsubscribe and self._unsubscribe())
+
+    def _sideband(self) -> SidebandCursor | None:
+        active = self.cursor_set.active
+        if isinstance(active, SidebandCursor):
+            return active
+        return next((c for c in self.cursor_set.cursors if isinstance(c, SidebandCursor)), None)
+
+    def _snap_spacing(self) -> None:
+        cursor = self._sideband()
+        if cursor is not None and cursor.data is not None and cursor.data.table is not None:
+            cursor.snap_spacing_to()
+
+    def _snap_centre(self) -> None:
+        cursor = self._sideband()
+        if cursor is not None:
+            cursor.snap_centre_to_peak()
+
+    def _sync_buttons(self) -> None:
+        has_side = self._sideband() is not None
+        self.buttons["snap_spacing"].setEnabled(has_side)
+        self.buttons["snap_centre"].setEnabled(has_side)
+        self.buttons["clear"].setEnabled(bool(self.cursor_set.cursors))
+
+    # -- session
+    def saved_for_view(self) -> list[dict[str, Any]]:
+        """The session's cursor entries of this plot's view."""
+        items = getattr(self.session, "cursors", None) or []
+        return [dict(d) for d in items if d.get("view", self.cursor_set.view) == self.cursor_set.view]
+
+    def restore(self) -> None:
+        """Draw the cursors the session holds for this view (when they differ from those shown)."""
+        if self.session is None:
+            return
+        saved = self.saved_for_view()
+        if saved != self.cursor_set.to_list():
+            self._writing = True
+            try:
+                self.cursor_set.from_list(saved)
+            finally:
+                self._writing = False
+
+    def _write_session(self, mine: list) -> None:
+        if self._writing or self.session is None:
+            return
+        view = self.cursor_set.view
+        others = [dict(d) for d in (getattr(self.session, "cursors", None) or []) if d.get("view", view) != view]
+        items = others + [dict(d) for d in mine]
+        self._writing = True
+        try:
+            if self.history is not None:
+                reason = self.cursor_set.last_change or "move"
+                # consecutive moves of one cursor are one undo step
+                merge = (f"cursors:{view}:{self.cursor_set.last_changed_index}" if reason == "move" else None)
+                self.history.set_list("cursors", items, f"{reason} cursor", merge_key=merge)
+            elif callable(getattr(self.session, "set_cursors", None)):
+                self.session.set_cursors(items)
+            else:
+                self.session.cursors = items
+        finally:
+            self._writing = False
+
+    def _on_session_event(self, event) -> None:
+        if event.kind == "cursors" and not self._writing:
+            self.restore()

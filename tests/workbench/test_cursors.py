@@ -264,3 +264,41 @@ def test_to_dict_round_trip_and_axis_change(analysis, plot):
     with pytest.raises(ValueError, match="positive spacing"):
         cursor_from_dict({"kind": "sideband", "positions": [1.0], "spacing": 0}, plot, d)
     assert math.isfinite(other.cursors[0].position)
+
+
+def test_cursor_tools_keep_the_session_and_undo(analysis, plot, qtbot):
+    from workbench.cursors import CursorTools
+    from workbench.overlays import ModelOverlay
+    from workbench.session import Session
+    from workbench.undo import UndoHistory
+
+    session = Session()
+    envelope_entry = {"kind": "harmonic", "axis": "hz", "positions": [12.0], "spacing": None, "n": 5,
+                      "view": "envelope"}
+    session.cursors = [envelope_entry]
+    history = UndoHistory(session, track_model=False)
+    cursors = CursorSet(plot, view="spectrum")
+    cursors.set_data(hz_data(analysis))
+    overlay = ModelOverlay(plot)
+    overlay.set_table(analysis.frequencies)
+    tools = CursorTools(cursors, overlay, session, history)
+    qtbot.addWidget(tools)
+    assert not tools.buttons["snap_spacing"].isEnabled()
+    side = cursors.add_sideband(400.0, 20.0)
+    assert session.cursors[0] == envelope_entry  # another view's cursor is kept
+    assert session.cursors[1]["spacing"] == 20.0 and session.cursors[1]["view"] == "spectrum"
+    for x in (426.0, 426.6):   # two moves of one cursor: one undo step
+        side.spacing_line.setValue(x)
+        side.spacing_line.sigPositionChangeFinished.emit(side.spacing_line)
+    assert session.cursors[1]["spacing"] == pytest.approx(26.6)
+    tools.buttons["snap_spacing"].click()
+    # output shaft 10 x 40/15 Hz (domain reference 1.1 formula)
+    assert session.cursors[1]["spacing"] == pytest.approx(analysis.frequencies.shaft_hz("output"))
+    history.undo()   # back before the snap
+    assert cursors.cursors[0].spacing == pytest.approx(26.6)
+    history.undo()   # back before the two moves
+    assert cursors.cursors[0].spacing == pytest.approx(20.0)
+    history.undo()   # before the cursor was added
+    assert cursors.cursors == [] and session.cursors == [envelope_entry]
+    history.redo()
+    assert len(cursors.cursors) == 1 and cursors.cursors[0].centre == pytest.approx(400.0)
