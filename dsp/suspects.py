@@ -151,6 +151,7 @@ class EnvelopeMatch:
     n_sidebands_clear: int         # sidebands at sideband_hz around clear harmonics
     sideband_hz: float | None
     evidence: tuple[str, ...]
+    resolution_hz: float = float("nan")
 
     @property
     def found(self) -> bool:
@@ -314,7 +315,7 @@ def match_envelope(
         else:
             ev.append(f"{t.label} of {t.component} ({t.hz:.2f} Hz) lies outside the envelope spectrum.")
         results[idx] = EnvelopeMatch(t.component, t.kind, t.label, t.shaft, float(t.hz), float(t.slip),
-                                     tuple(hits), int(n_clear), int(n_sb), t.sideband_hz, tuple(ev))
+                                     tuple(hits), int(n_clear), int(n_sb), t.sideband_hz, tuple(ev), df)
     return tuple(results[i] for i in range(len(targets)))
 
 
@@ -464,6 +465,13 @@ def _bearing_suspects(envelope_matches: Sequence[EnvelopeMatch]) -> list[Suspect
         if m.kind == "bearing rolling element":
             # a rolling element turns with the cage: its impacts are modulated at FTF
             score *= 0.6 + 0.4 * ramp(m.n_sidebands_clear, 0, 2)
+        if m.kind == "bearing cage":
+            # a cage fault seldom shows as its own envelope family (common practice, no source)
+            score *= 0.8
+        if m.found and 1.5 * m.resolution_hz > 2 * m.slip * m.expected_hz:
+            score *= 0.5
+            ev.append(f"the envelope lines are {m.resolution_hz:.3f} Hz apart, too coarse to tell {m.label} "
+                      f"({m.expected_hz:.2f} Hz) within its {100 * m.slip:.0f} % slip; a longer record would.")
         level = _family_level(m)
         for s in shafts:
             ref = _family_level(s)
@@ -548,7 +556,8 @@ def rank_suspects(
       max(w, ramp(first sideband / carrier dB; -20, -8))``;
     * bearing = ``0.5 ramp(clear harmonics; 1, 3) + 0.5 ramp(excess dB; 12, 30)``,
       halved with fewer than two clear harmonics, halved again when a shaft
-      family 20 dB stronger dominates the envelope; inner race weighted by
+      family 20 dB stronger dominates the envelope, halved again when the
+      envelope resolution is coarser than the slip window; cage x 0.8; inner race weighted by
       shaft-rate sidebands, rolling element by cage-rate sidebands; of two
       defect frequencies of one bearing claiming the same lines, the farther
       one is weighted by 0.7.
