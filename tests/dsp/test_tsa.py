@@ -243,3 +243,20 @@ def test_demodulation_check_values():
 def test_demodulation_band_must_fit():
     with pytest.raises(AnalysisError, match="band"):
         demodulate(np.zeros(64), 20, harmonic=2)
+
+
+def test_time_range_and_late_profile_start():
+    """A tach profile that starts at the first pulse (0.3 s) and a time range inside the record."""
+    fs, dur, f0 = 2048.0, 6.0, 8.0
+    t = np.arange(int(dur * fs)) / fs
+    tk = 0.3 + np.arange(0, int((dur - 0.4) * f0)) / f0               # one pulse per revolution
+    prof = SpeedProfile.from_knots(tk, np.arange(tk.size, dtype=float), shaft="input", source="tach")
+    x = np.cos(2 * np.pi * 3 * f0 * (t - 0.3) + 0.2)                   # order 3, angle 0 at 0.3 s
+    res = tsa(x, fs, prof, t_range_s=(1.0, 4.0))
+    assert 1.0 <= res.t_start_s and res.t_end_s <= 4.0
+    # whole revolutions inside the range, less the smooth edges of a few samples
+    assert res.n_revs >= int(3.0 * f0) - 2
+    assert res.t_end_s - res.t_start_s == pytest.approx(res.n_revs / f0, rel=1e-9)
+    theta = np.arange(res.samples_per_rev) / res.samples_per_rev
+    # Fyfe & Munck 1997: angle 0 is the tach pulse, so the order keeps its phase 0.2 rad
+    np.testing.assert_allclose(res.average, np.cos(2 * np.pi * 3 * theta + 0.2), atol=1e-6)
