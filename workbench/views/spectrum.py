@@ -74,7 +74,7 @@ class SpectrumView(AnalysisView):
             # labels staggered in height so marks close together stay readable
             line = pg.InfiniteLine(angle=90, movable=False, pen=pg.mkPen(theme.SHAFT_COLOURS[0], width=1,
                                                                          style=pg.QtCore.Qt.PenStyle.DashLine),
-                                   label="", labelOpts={"position": 0.95 - 0.05 * (i % N_GMF_HARMONICS),
+                                   label="", labelOpts={"position": 0.95 - 0.05 * (i % (2 * N_GMF_HARMONICS)),
                                                         "color": theme.FOREGROUND, "fill": (255, 255, 255, 200)})
             line.setVisible(False)
             self.plot.addItem(line, ignoreBounds=True)
@@ -207,10 +207,15 @@ class SpectrumView(AnalysisView):
 
     def _draw_marks(self, scale: float, shaft: str | None) -> None:
         table = getattr(self.analysis, "frequencies", None)
-        meshes = [m for m in getattr(table, "meshes", ()) or () if shaft in (m.driver, m.driven)]
-        colour = theme.shaft_colour(self.analysis.model, shaft)
-        marks = [(f"{m.name} GMF×{h}" if h > 1 else f"{m.name} GMF", h * m.gmf_hz * scale)
-                 for m in meshes for h in range(1, N_GMF_HARMONICS + 1)]
+        model = self.analysis.model
+        gmfs = [(m.name, m.gmf_hz) for m in getattr(table, "meshes", ()) or () if shaft in (m.driver, m.driven)]
+        # planetary stages: the mesh frequency belongs to the sun and the carrier shafts
+        stages = {p.name: p for p in getattr(model, "planetary", ()) or ()}
+        gmfs += [(p.name, p.mesh_hz) for p in getattr(table, "planetary", ()) or ()
+                 if p.name in stages and shaft in (stages[p.name].sun_shaft, stages[p.name].carrier_shaft)]
+        colour = theme.shaft_colour(model, shaft)
+        marks = [(f"{name} GMF×{h}" if h > 1 else f"{name} GMF", h * gmf_hz * scale)
+                 for name, gmf_hz in gmfs for h in range(1, N_GMF_HARMONICS + 1)]
         for i, (line, mark) in enumerate(zip(self.marks, marks + [None] * (N_MARKS - len(marks)))):
             if mark is None:
                 line.setVisible(False)
