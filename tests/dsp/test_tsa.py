@@ -5,8 +5,6 @@ wandering around its mean); signals are built as functions of that angle, so the
 shaft-periodic part is known exactly.
 """
 
-import math
-
 import numpy as np
 import pytest
 import scipy.special
