@@ -115,6 +115,7 @@ def atomic_write_text(path: str | Path, text: str) -> Path:
     except OSError as exc:
         raise SessionFileError(f"cannot write {path} ({exc.strerror}); choose a folder you can write to") from None
     try:
+        os.chmod(tmp, new_file_mode(path))
         with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
             fh.write(text)
             fh.flush()
@@ -128,6 +129,17 @@ def atomic_write_text(path: str | Path, text: str) -> Path:
         raise SessionFileError(f"cannot write {path} ({exc.strerror}); choose a folder you can write to") from None
     _fsync_folder(folder)
     return path
+
+
+def new_file_mode(path: str | Path) -> int:
+    """Permission bits for a file that replaces ``path``: its own when it exists, else 0o666 less the umask."""
+    try:
+        return Path(path).stat().st_mode & 0o777
+    except OSError:
+        pass
+    mask = os.umask(0o022)   # reading the umask means setting it; put it straight back
+    os.umask(mask)
+    return 0o666 & ~mask
 
 
 def _fsync_folder(folder: Path) -> None:
