@@ -243,6 +243,22 @@ def ensure_app():
     return app
 
 
+def quiet_platform_notes() -> None:
+    """Drop the offscreen platform's "does not support propagateSizeHints()" notes (command line only).
+
+    Every other Qt message still goes to stderr.
+    """
+    import sys
+
+    from PySide6.QtCore import qInstallMessageHandler
+
+    def handler(_kind, _context, message: str) -> None:
+        if "propagateSizeHints" not in message:
+            print(message, file=sys.stderr)
+
+    qInstallMessageHandler(handler)
+
+
 def make_view(recipe: dict[str, Any], analysis: Any, recording: Any = None):
     """Build the recipe's view on a fresh session, draw the analysis and apply options, cursors and annotations.
 
