@@ -28,7 +28,8 @@ SPECTRUM_Y_UNITS = ("g", "m/s2", "mm/s")
 TSA_SIGNALS = ("average", "residual", "difference")
 
 # Event kinds a subscriber may receive.
-EVENT_KINDS = ("recording", "model", "settings", "shaft", "view_options", "view")
+EVENT_KINDS = ("recording", "model", "settings", "shaft", "view_options", "view",
+               "cursors", "annotations", "snapshots", "findings")
 
 
 @dataclass(frozen=True)
@@ -85,6 +86,13 @@ class Session:
     selected_shaft: str | None = None
     view_options: ViewOptions = field(default_factory=ViewOptions)
     current_view: str = "spectrum"
+    # the analyst's work, saved beside the core by workbench.session_store (plain data)
+    recording_sha256: str | None = None
+    baseline_path: str | None = None
+    cursors: list[dict[str, Any]] = field(default_factory=list)
+    annotations: list[dict[str, Any]] = field(default_factory=list)
+    snapshots: list[dict[str, Any]] = field(default_factory=list)
+    findings: str = ""
     _listeners: list[tuple[Listener, frozenset[str] | None]] = field(default_factory=list, repr=False, compare=False)
 
     # ------------------------------------------------------------------ observers
@@ -199,6 +207,32 @@ class Session:
             return
         self.current_view = name
         self._emit("view", name)
+
+    def set_cursors(self, items: list[dict[str, Any]]) -> None:
+        """Replace the cursor list (plain dicts, one ``view`` key each)."""
+        self._set_list("cursors", items)
+
+    def set_annotations(self, items: list[dict[str, Any]]) -> None:
+        """Replace the annotation list (plain dicts, see ``workbench.annotations.Annotation``)."""
+        self._set_list("annotations", items)
+
+    def set_snapshots(self, items: list[dict[str, Any]]) -> None:
+        """Replace the snapshot list (``id, recipe, png, svg, caption, view`` each)."""
+        self._set_list("snapshots", items)
+
+    def set_findings(self, text: str) -> None:
+        """The analyst's findings and recommendation (plain text)."""
+        if not isinstance(text, str):
+            raise TypeError(f"findings must be str, got {type(text).__name__}")
+        if text != self.findings:
+            self.findings = text
+            self._emit("findings", text)
+
+    def _set_list(self, kind: str, items: list[dict[str, Any]]) -> None:
+        items = [dict(item) for item in items]
+        if items != getattr(self, kind):
+            setattr(self, kind, items)
+            self._emit(kind, items)
 
     # ------------------------------------------------------------------ JSON
     def to_dict(self) -> dict[str, Any]:
