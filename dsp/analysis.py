@@ -583,10 +583,7 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
             zoom = zoom_spectrum(full, None, gmf, span, window=settings.window, scaling=settings.spectrum_scaling,
                                  units=sensor.units)
 
-    # --- order spectrum (on the low band of the shared rfft) ---------------
-    step(0.2, "order spectrum")
-    from .orders import order_spectrum
-
+    # --- low band of the shared rfft (order spectrum, cepstrum) -------------
     max_gmf_order = max([m.gmf_order for m in table.meshes] + [p.mesh_hz / table.reference_hz for p in table.planetary]
                         + [1.0])
     max_order = settings.max_order
@@ -594,8 +591,37 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
         max_order = (settings.n_mesh_harmonics + 0.5) * max_gmf_order
     max_order = float(min(max_order, 0.45 * fs / profile.max_hz))
     low = _low_band(full, 1.3 * max_order * profile.max_hz)
-    lx, lfs = (low[1], low[0].fs) if low is not None else (x, fs)
+    low_full, lx, lfs = (low[0], low[1], low[0].fs) if low is not None else (full, x, fs)
+    del low
     max_order = float(min(max_order, 0.45 * lfs / profile.max_hz))
+
+    # --- envelope ---------------------------------------------------------
+    step(0.2, "envelope")
+    from .envelope import envelope_spectrum, fast_kurtogram
+
+    kurt = None
+    if settings.envelope_band_hz is not None:
+        band = tuple(float(v) for v in settings.envelope_band_hz)
+        band_source = "user"
+    else:
+        kurt = fast_kurtogram(x, fs, max_level=settings.kurtogram_max_level)
+        band = _choose_band(kurt, table, settings, nyq, warn)
+        band_source = "kurtogram"
+    env = envelope_spectrum(full, fs, band, band_source=band_source)
+    from .suspects import match_envelope, rank_suspects, score_components
+
+    matches = match_envelope(env.freq_hz, env.amplitude, _envelope_targets(table))
+
+    # the cepstrum of the low band (mesh harmonics and their sidebands) from the shared rfft
+    from .cepstrum import cepstrum_from_rfft, rahmonic_strength
+
+    ceps = cepstrum_from_rfft(low_full)
+    del full, low_full  # everything that needs the full-length rfft has it now
+
+    # --- order spectrum (on the low band) -----------------------------------
+    step(0.3, "order spectrum")
+    from .orders import order_spectrum
+
     ospec = order_spectrum(lx, lfs, profile, max_order=max_order, window="hann")
     del lx
 
@@ -614,36 +640,16 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
             continue
         eligible[name] = orders[name]
     if eligible:
-        step(0.3, "TSA of shafts " + ", ".join(eligible))
+        step(0.45, "TSA of shafts " + ", ".join(eligible))
         results = tsa_shafts(x, fs, profile, eligible, samples_per_rev=settings.tsa_samples_per_rev)
         for k, (name, res) in enumerate(zip(eligible, results)):
-            step(0.5 + 0.1 * k / len(eligible), f"TSA indicators of shaft {name}")
+            step(0.65 + 0.1 * k / len(eligible), f"TSA indicators of shaft {name}")
             tsas.append(_derived(res, name, table, model, settings))
 
-    # --- envelope ---------------------------------------------------------
-    step(0.62, "envelope")
-    from .envelope import envelope_spectrum, fast_kurtogram
-
-    kurt = None
-    if settings.envelope_band_hz is not None:
-        band = tuple(float(v) for v in settings.envelope_band_hz)
-        band_source = "user"
-    else:
-        kurt = fast_kurtogram(x, fs, max_level=settings.kurtogram_max_level)
-        band = _choose_band(kurt, table, settings, nyq, warn)
-        band_source = "kurtogram"
-    env = envelope_spectrum(full, fs, band, band_source=band_source)
-    from .suspects import match_envelope, rank_suspects, score_components
-
-    matches = match_envelope(env.freq_hz, env.amplitude, _envelope_targets(table))
-
     # --- cepstrum ---------------------------------------------------------
-    step(0.75, "cepstrum")
-    from .cepstrum import cepstrum_from_rfft, rahmonic_strength
+    step(0.8, "cepstrum rahmonics")
     from .errors import GearbenchError
 
-    # the cepstrum of the low band (mesh harmonics and their sidebands) from the shared rfft
-    ceps = cepstrum_from_rfft(low[0] if low is not None else full)
     ceps_support = {}
     ceps_prominence = {}
     for s in table.shafts:
@@ -655,7 +661,7 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
         ceps_support[s.name] = _ramp(prom, *CEPSTRUM_PROMINENCE_RAMP) if math.isfinite(prom) else float("nan")
 
     # --- sidebands and suspects ---------------------------------------------
-    step(0.85, "sideband families")
+    step(0.87, "sideband families")
     from .sidebands import measure_sidebands
 
     rel_err = 0.0 if profile.source == "tach" else (0.005 if profile.source == "estimated" else 0.02)
