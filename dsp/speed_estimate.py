@@ -45,6 +45,7 @@ class MeshLine:
     mesh: str
     harmonic: int
     order: float
+    planetary: bool = False
 
 
 @dataclass(frozen=True)
@@ -108,7 +109,7 @@ def mesh_lines(train, reference_shaft: str, *, n_harmonics: int = 3) -> list[Mes
         out += [MeshLine(m.name, h, h * base) for h in range(1, n_harmonics + 1)]
     for g in train.planetary:
         base = orders[g.carrier_shaft] * g.ring_teeth
-        out += [MeshLine(g.name, h, h * base) for h in range(1, n_harmonics + 1)]
+        out += [MeshLine(g.name, h, h * base, True) for h in range(1, n_harmonics + 1)]
     return out
 
 
@@ -156,7 +157,8 @@ def estimate_speed(x, fs, train, *, nominal_rpm: float, reference_shaft: str, se
     -----
     Every mesh harmonic whose search band ``F (1 +- search_pct/100)`` lies below
     0.45 fs and holds no other mesh line is scored by the peak of its smoothed power
-    spectrum over the band's median (``snr_db``).  For the best one the occupied band
+    spectrum over the band's median (``snr_db``); parallel meshes above ``min_snr_db``
+    are preferred to planetary ones (whose spectrum is shaped by the planets passing).  For the best one the occupied band
     (power above 1 % of the peak, plus two shaft rates) is cut out of the record's FFT,
     shifted to 0 Hz and inverse transformed; the unwrapped phase plus the shift,
     divided by ``2 pi x order``, is the reference shaft's angle in revolutions
@@ -171,6 +173,9 @@ def estimate_speed(x, fs, train, *, nominal_rpm: float, reference_shaft: str, se
        "Use of the acceleration signal of a gearbox in order to perform angular
        resampling (with limited speed fluctuation)", Mechanical Systems and Signal
        Processing 19(4), 766-785, 2005.
+    .. [2] P. D. McFadden and J. D. Smith, "An explanation for the asymmetry of the
+       modulation sidebands about the tooth meshing frequency in epicyclic gear
+       vibration", Proc. IMechE C 199(1), 65-70, 1985.
     """
     arr = np.asarray(x)
     if arr.ndim != 1 or arr.size < 64:
@@ -223,11 +228,15 @@ def estimate_speed(x, fs, train, *, nominal_rpm: float, reference_shaft: str, se
         if med <= 0:
             continue
         snr = 10 * math.log10(float(sm.max()) / med)
-        if best is None or snr > best[0]:
-            best = (snr, line, k_lo, k_hi, sm)
+        # a parallel mesh that stands clear beats any planetary line: a fixed sensor sees the
+        # planetary mesh modulated by the planets passing, so its strongest line is often a
+        # sideband at f_m +- k N_p f_c rather than f_m itself (McFadden & Smith 1985)
+        rank = (snr >= min_snr_db and not line.planetary, snr)
+        if best is None or rank > best[-1]:
+            best = (snr, line, k_lo, k_hi, sm, rank)
     if best is None or best[0] < min_snr_db:
         return nominal if best is None else replace(nominal, snr_db=best[0])
-    snr, line, k_lo, k_hi, sm = best
+    snr, line, k_lo, k_hi, sm, _ = best
     # power centroid of the occupied band -> mean speed ("spectrum peak" level)
     occ = np.nonzero(sm >= 0.01 * sm.max())[0]
     o_lo, o_hi = k_lo + occ[0], k_lo + occ[-1]
