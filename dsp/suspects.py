@@ -381,7 +381,9 @@ def _gear_suspects(
         # unless the same shaft shows the wear pattern and FM4 stays moderate
         impulsive = max(ramp(fm4, *FM4_RAMP), ramp(na4, *NA4_RAMP), 0.8 * ramp(m6a, *M6A_RAMP))
         support = 0.5 * sb_score + 0.5 * env_score
-        loc = impulsive * (0.8 + 0.2 * support) + 0.1 * support * (impulsive > 0)
+        # an impulsive TSA alone reaches 0.55; the impact seen once per revolution in the
+        # envelope and a sideband family at the shaft rate corroborate it
+        loc = impulsive * (0.55 + 0.45 * support) + 0.1 * support * (impulsive > 0)
         damp = 1.0 - 0.5 * wear * (1.0 - ramp(fm4, *FM4_SURELY_LOCAL))
         loc = float(np.clip(loc * damp, 0.0, 1.0))
         ev = [
@@ -548,7 +550,7 @@ def rank_suspects(
     * wear pattern ``w = 0.55 ramp(ER; 0.1, 0.3) + 0.45 ramp(H2/H1; 0.6, 1.2)``
       (energy ratio of the shaft's TSA; second over first mesh harmonic of the
       meshes whose families the shaft owns);
-    * localized tooth damage = ``(impulsive * (0.8 + 0.2 s) + 0.1 s) *
+    * localized tooth damage = ``(impulsive * (0.55 + 0.45 s) + 0.1 s) *
       (1 - 0.5 w (1 - ramp(FM4; 10, 30)))`` where
       ``impulsive = max(ramp(FM4; 5, 9), ramp(NA4; 5, 9), 0.8 ramp(M6A; 50, 150))``
       and ``s`` averages the sideband-ownership and envelope shaft-rate support;

@@ -8,7 +8,7 @@ import scipy.signal
 import scipy.stats
 
 from dsp.sidebands import detection_threshold_db
-from dsp.suspects import CAUTION, EnvelopeTarget, match_envelope, rank_suspects, score_components
+from dsp.suspects import CAUTION, EnvelopeMatch, EnvelopeTarget, match_envelope, rank_suspects, score_components
 
 # CWRU 6205 drive-end bearing at 1797 rpm (domain reference sec. 2): multiples of running speed
 FR_HZ = 1797 / 60
@@ -102,20 +102,32 @@ def test_healthy_indicators_give_no_suspect():
     assert max(s.score for s in scores) < 0.2
 
 
+def impacts_once_per_rev(shaft, hz=8.0):
+    """The envelope match of a shaft whose rate and 3 harmonics stand clear."""
+    return EnvelopeMatch(f"shaft:{shaft}", "shaft rate", f"1x {shaft}", shaft, hz, 0.0, (), 4, 0, None,
+                         (f"1x {shaft}: 4 clear harmonics",))
+
+
 def test_impulsive_shaft_ranks_first():
     # a local tooth fault makes FM4 / NA4 rise well above 3 (Stewart 1977; Zakrajsek et al. 1993)
+    # and strikes once per revolution, so the envelope shows the shaft rate (Randall 2011)
     tsa = [tsa_item("input", 3.1), tsa_item("intermediate", 7.5, na4=8.0, m6a=120.0), tsa_item("output", 3.3)]
-    suspects = rank_suspects(tsa, [], [])
+    suspects = rank_suspects(tsa, [], [impacts_once_per_rev("intermediate")])
     assert [s.component for s in suspects] == ["shaft:intermediate"]
     assert suspects[0].kind == "localized tooth damage"
     assert suspects[0].view == "tsa"
     assert any("FM4 7.50" in e for e in suspects[0].evidence)
+    assert any("once per revolution" in e for e in suspects[0].evidence)
+    # the same indicators without any corroboration stay below the alarm threshold
+    # (manufacturing errors can lift FM4 of a healthy gear; common practice, no source)
+    assert rank_suspects(tsa, [], []) == ()
 
 
 def test_threshold_filters_and_order_is_by_score():
     tsa = [tsa_item("a", 6.5), tsa_item("b", 12.0)]
-    low = rank_suspects(tsa, [], [], threshold=0.1)
+    env = [impacts_once_per_rev("a"), impacts_once_per_rev("b", 3.0)]
+    low = rank_suspects(tsa, [], env, threshold=0.1)
     assert [s.component for s in low] == ["shaft:b", "shaft:a"]
     assert low[0].score >= low[1].score
-    high = rank_suspects(tsa, [], [], threshold=0.75)
+    high = rank_suspects(tsa, [], env, threshold=0.75)
     assert [s.component for s in high] == ["shaft:b"]
