@@ -143,9 +143,16 @@ def measure(duration_s: float = 60.0, fs: float = 51200.0, repeats: int = 3,
             data, _ = soundfile.read(path, dtype="float32")
             return scipy.fft.rfft(data)
 
-        floor_s, _ = _best(floor, repeats)
         data, _ = soundfile.read(path, dtype="float32")
-    tsa_s, results = _best(lambda: tsa_shafts(data, fs, profile, ORDERS), repeats)
+        # floor and TSA timed alternately (best of `repeats` each), so that a change in
+        # the machine's load during the run affects both alike
+        floor_s = tsa_s = float("inf")
+        results = None
+        for _ in range(repeats):
+            dt, _ = _best(floor, 1)
+            floor_s = min(floor_s, dt)
+            dt, results = _best(lambda: tsa_shafts(data, fs, profile, ORDERS), 1)
+            tsa_s = min(tsa_s, dt)
     base_s, _ = _best(lambda: [baseline_tsa(data, fs, profile, r.shaft_order, r.samples_per_rev)
                                for r in results], 1)
     err, base_err, info = _accuracy(fs, accuracy_duration_s, rng)
