@@ -58,6 +58,9 @@ SCHEMA = "gearbench.analysis/1"
 MIN_TSA_REVS = 3
 #: Speed spread (max - min) / mean above which a warning is given (common practice, no source).
 SPEED_SPREAD_WARN = 0.10
+#: Above this speed spread the envelope families are searched order-tracked (the
+#: 1-2 % bearing slip tolerance would be exceeded; common practice, no source).
+ENVELOPE_ORDER_TRACK_SPREAD = 0.02
 #: Non-finite samples above this fraction of the record make the analysis fail.
 MAX_NONFINITE_FRACTION = 0.05
 #: Rahmonic prominence (mean rahmonic peak over the cepstrum's robust spread)
@@ -410,6 +413,47 @@ def _choose_band(kurt, table, settings: Settings, nyq: float, warn: list[str]) -
     return (best[1], best[2])
 
 
+def _order_tracked_envelope(full, band_hz, profile, band_source: str):
+    """Squared-envelope spectrum resampled to the reference shaft angle, in Hz at the mean speed.
+
+    The complex envelope of the band (cut from the shared rfft) is squared,
+    resampled at equal steps of the reference shaft angle (linear interpolation
+    of the smooth squared envelope; computed order tracking of the envelope) and
+    transformed; the order axis is multiplied by the mean speed so that the lines
+    fall where the frequency table of the mean speed puts them however the speed
+    wandered.
+
+    References
+    ----------
+    .. [1] R. B. Randall, J. Antoni, "Rolling element bearing diagnostics - A
+       tutorial", Mech. Syst. Signal Process. 25 (2011) 485-520 (order track first
+       when the speed varies).
+    .. [2] K. R. Fyfe, E. D. S. Munck, "Analysis of computed order tracking",
+       Mech. Syst. Signal Process. 11(2) (1997) 187-205.
+    """
+    from .envelope import EnvelopeSpectrum, analytic_band_from_rfft
+
+    band = analytic_band_from_rfft(full, band_hz, decimate=True)
+    c = band.values
+    e2 = (c.real.astype(np.float64) ** 2 + c.imag.astype(np.float64) ** 2)
+    t = np.arange(e2.size) / band.sample_rate_hz
+    a0 = float(profile.angle_rev(t[0]))
+    a1 = float(profile.angle_rev(t[-1]))
+    first, last = math.ceil(a0), math.floor(a1)
+    n_revs = last - first
+    p = int(2 ** math.ceil(math.log2(max(band.sample_rate_hz / profile.min_hz, 8))))
+    theta = first + np.arange(n_revs * p) / p
+    y = np.interp(profile.time_s(theta), t, e2)
+    y -= y.mean()
+    amp = np.abs(np.fft.rfft(y)) * (2.0 / y.size)
+    order = np.arange(amp.size) / n_revs
+    ro = order * profile.mean_hz
+    ro.setflags(write=False)
+    amp.setflags(write=False)
+    return EnvelopeSpectrum(freq_hz=ro, amplitude=amp, band_hz=band.band_hz, band_source=band_source, squared=True,
+                            sample_rate_hz=p * profile.mean_hz, window="rectangular", scaling="peak")
+
+
 def _envelope_targets(table):
     from .suspects import EnvelopeTarget
 
@@ -608,9 +652,17 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
         band = _choose_band(kurt, table, settings, nyq, warn)
         band_source = "kurtogram"
     env = envelope_spectrum(full, fs, band, band_source=band_source)
+    env_order_tracked = None
+    if spread > ENVELOPE_ORDER_TRACK_SPREAD and profile.n_revs >= MIN_TSA_REVS:
+        env_order_tracked = _order_tracked_envelope(full, band, profile, band_source)
+        warn.append(
+            f"the speed varied by {100 * spread:.0f} %: bearing and shaft families were searched in the "
+            "order-tracked squared-envelope spectrum (Hz at the mean speed)."
+        )
     from .suspects import match_envelope, rank_suspects, score_components
 
-    matches = match_envelope(env.freq_hz, env.amplitude, _envelope_targets(table))
+    env_for_matches = env_order_tracked if env_order_tracked is not None else env
+    matches = match_envelope(env_for_matches.freq_hz, env_for_matches.amplitude, _envelope_targets(table))
 
     # the cepstrum of the low band (mesh harmonics and their sidebands) from the shared rfft
     from .cepstrum import cepstrum_from_rfft, rahmonic_strength
@@ -714,6 +766,7 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
             "cepstrum_prominence": ceps_prominence,
             "all_scores": all_scores,
             "speed_spread": spread,
+            "envelope_order_tracked": env_order_tracked,
         },
     )
 
