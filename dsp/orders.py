@@ -270,14 +270,20 @@ def angular_resample(x, fs, profile, *, shaft_order: float = 1.0, samples_per_re
     N = avail if n_revs is None else int(n_revs)
     if not 1 <= N <= avail:
         raise AnalysisError(f"n_revs={n_revs} must be between 1 and {avail} (whole revolutions available)")
-    y, U = _prepare(arr, fs, lowpass)
+    # Work in segments of angle samples so that memory stays bounded for long records:
+    # each segment filters/upsamples only its own stretch of signal plus a margin of true
+    # neighbouring samples (the filter's settling length), and keeps the interior.
+    seg_margin = 256 if lowpass is None else max(256, int(math.ceil(60.0 * fs / lowpass)))
     out = np.empty(N * P)
-    scale = fs * U
+    U = 1
     for j0 in range(0, N * P, _CHUNK):
         j1 = min(j0 + _CHUNK, N * P)
         ang = (a + np.arange(j0, j1, dtype=np.float64) / P) / r
-        u = np.asarray(profile.time_s(ang), dtype=np.float64) * scale
-        out[j0:j1] = _lagrange4(y, u)
+        u = np.asarray(profile.time_s(ang), dtype=np.float64) * fs
+        i0 = max(int(math.floor(u[0])) - seg_margin, 0)
+        i1 = min(int(math.ceil(u[-1])) + seg_margin, n - 1)
+        y, U = _prepare(arr[i0:i1 + 1], fs, lowpass)
+        out[j0:j1] = _lagrange4(y, (u - i0) * U)
     if arr.dtype == np.float32:
         out = out.astype(np.float32)
     out.setflags(write=False)
