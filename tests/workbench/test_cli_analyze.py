@@ -67,10 +67,24 @@ def test_band_and_model_options(recordings, tmp_path, capsys):
     assert env["band_hz"][0] == pytest.approx(2000.0, abs=1.0)
 
 
+def test_baseline_comparison(recordings, capsys):
+    assert main(["analyze", str(recordings["tooth"]), "--baseline", str(recordings["healthy"]), "--json"]) == 0
+    d = json.loads(capsys.readouterr().out)
+    base = d["baseline"]
+    # simulator truth: the tooth fault is on shaft mid; the healthy file is the same gearbox
+    assert base["path"].endswith("healthy.flac")
+    assert "mid" in base["shafts_grown"]
+    fm4 = next(r for r in base["indicators"] if r["name"] == "fm4" and r["shaft"] == "mid")
+    assert fm4["flag"] == "grown" and fm4["now"] > fm4["baseline"]
+    assert d["suspects"][0]["component"] == "shaft:mid"
+    assert "suspects_without_baseline" in d
+
+
 @pytest.mark.parametrize("args,message", [
     (["--channel", "5"], "no sensor of the model is on channel 5"),
     (["--band", "4000", "2000"], "is not a band"),
     (["--model", "nowhere.toml"], "not found"),
+    (["--baseline", "nowhere.flac"], "baseline recording"),
 ])
 def test_bad_input_is_one_line_with_status_2(recordings, capsys, args, message):
     assert main(["analyze", str(recordings["healthy"]), *args]) == 2

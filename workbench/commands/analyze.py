@@ -1,10 +1,13 @@
-"""``gearbench analyze RECORDING [--model M] [--channel C] [--json] [--band LO HI]``.
+"""``gearbench analyze RECORDING [--model M] [--channel C] [--json] [--band LO HI] [--baseline B]``.
 
 Runs :func:`dsp.analysis.analyze` on one recording and prints a readable summary
 (speed, shafts, overall levels, TSA indicators per shaft, sideband owners,
 suspects with their evidence, warnings) or the JSON document of
 ``Analysis.to_json_dict()``.  The model defaults to the TOML file beside the
-recording.  No Qt is imported; scipy only when the analysis runs.
+recording.  With ``--baseline B`` a healthy recording of the same gearbox is
+analysed too and compared (:func:`dsp.baseline.compare`): the JSON gets a
+``baseline`` object and the suspects are re-ranked with it.  No Qt is imported;
+scipy only when the analysis runs.
 """
 
 from __future__ import annotations
@@ -29,6 +32,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="analyse the sensor on this recording channel (0-based; default: the first sensor)")
     parser.add_argument("--band", metavar=("LO", "HI"), type=float, nargs=2, default=None,
                         help="envelope band in Hz (default: chosen by the kurtogram)")
+    parser.add_argument("--baseline", metavar="B", default=None,
+                        help="a healthy recording of the same gearbox to compare with (its model: the .toml "
+                             "beside it, else the model of RECORDING)")
     parser.add_argument("--json", action="store_true", help="print the analysis as JSON")
 
 
@@ -38,8 +44,11 @@ def _num(x, fmt: str = ".3g") -> str:
     return format(x, fmt)
 
 
-def format_summary(d: dict) -> str:
-    """Readable text of an analysis JSON document (``Analysis.to_json_dict()``)."""
+def format_summary(d: dict, baseline_lines: list[str] | None = None) -> str:
+    """Readable text of an analysis JSON document (``Analysis.to_json_dict()``).
+
+    ``baseline_lines`` (from ``BaselineComparison.summary_lines()``) go before the suspects.
+    """
     out: list[str] = []
     rec, sp = d["recording"], d["speed"]
     out.append(f"Recording {rec['path']}")
@@ -76,8 +85,10 @@ def format_summary(d: dict) -> str:
                + (", ".join(f"{m['label']} of {m['component']} ({m['n_clear']} harmonics)"
                             for m in env["matches"] if m["n_clear"] >= 2)
                   or "no bearing or shaft family stands clear with two harmonics or more"))
+    if baseline_lines:
+        out.extend(baseline_lines)
     if d["suspects"]:
-        out.append("Suspects (best first):")
+        out.append("Suspects (best first" + (", re-ranked with the baseline" if baseline_lines else "") + "):")
         for i, s in enumerate(d["suspects"], 1):
             out.append(f"  {i}. {s['component']}: {s['kind']} (score {s['score']:.2f}, see the {s['view']} view)")
             for e in s["evidence"]:
@@ -124,9 +135,33 @@ def run(args: argparse.Namespace) -> int:
         settings = dataclasses.replace(settings, envelope_band_hz=(float(lo), float(hi)))
     recording = read_recording(path)
     result = analyze(recording, train, settings)
+    comparison = None
+    if args.baseline:
+        comparison = _compare(result, train, settings, Path(args.baseline))
+        without = result.to_json_dict()["suspects"]
+        result = dataclasses.replace(result, suspects=tuple(comparison.suspects))
     d = result.to_json_dict()
+    if comparison is not None:
+        d["baseline"] = comparison.to_json_dict()
+        d["suspects_without_baseline"] = without
     if args.json:
         print(json.dumps(d, indent=2, allow_nan=False))
     else:
-        print(format_summary(d))
+        print(format_summary(d, comparison.summary_lines() if comparison is not None else None))
     return 0
+
+
+def _compare(result, train, settings, base_path: Path):
+    """Analyse the baseline recording with the same settings and compare."""
+    from dsp.analysis import analyze
+    from dsp.baseline import compare
+    from dsp.errors import GearbenchError
+    from dsp.model import load_model
+    from dsp.recording import read_recording
+
+    if not base_path.exists():
+        raise GearbenchError(f"baseline recording {str(base_path)!r} not found; check the --baseline path")
+    model_path = base_path.with_suffix(".toml")
+    base_train = load_model(model_path) if model_path.exists() else train
+    baseline = analyze(read_recording(base_path), base_train, settings)
+    return compare(result, baseline)
