@@ -528,6 +528,8 @@ class CursorSet(QObject):
         widget = plot_item.getViewWidget()
         if widget is not None:
             widget.installEventFilter(self)
+            if widget.focusPolicy() == Qt.FocusPolicy.NoFocus:
+                widget.setFocusPolicy(Qt.FocusPolicy.StrongFocus)   # arrow keys reach the cursors
 
     # -- data
     def set_data(self, data: CursorData | None) -> None:
@@ -757,7 +759,9 @@ class CursorTools(QWidget):
     in step with the :class:`CursorSet`: the set's ``changed`` signal writes this
     view's entries (through ``history.set_list`` when an undo history is given, else
     through the session's ``set_cursors``), and a ``"cursors"`` event of the session
-    (undo, a session file opened) redraws the cursors saved for this view.
+    (undo, a session file opened) redraws the cursors saved for this view.  Without an
+    explicit ``history`` the window's (``window().document.history``) is used when
+    the row sits in a window that has one.
 
     Parameters
     ----------
@@ -859,11 +863,12 @@ class CursorTools(QWidget):
         items = others + [dict(d) for d in mine]
         self._writing = True
         try:
-            if self.history is not None:
+            history = self.history if self.history is not None else self._window_history()
+            if history is not None:
                 reason = self.cursor_set.last_change or "move"
                 # consecutive moves of one cursor are one undo step
                 merge = (f"cursors:{view}:{self.cursor_set.last_changed_index}" if reason == "move" else None)
-                self.history.set_list("cursors", items, f"{reason} cursor", merge_key=merge)
+                history.set_list("cursors", items, f"{reason} cursor", merge_key=merge)
             elif callable(getattr(self.session, "set_cursors", None)):
                 self.session.set_cursors(items)
             else:
@@ -871,6 +876,51 @@ class CursorTools(QWidget):
         finally:
             self._writing = False
 
+    def _window_history(self):
+        """The window's undo history (``window().document.history``) when there is one."""
+        return getattr(getattr(self.window(), "document", None), "history", None)
+
     def _on_session_event(self, event) -> None:
         if event.kind == "cursors" and not self._writing:
             self.restore()
+
+
+def attach_to_view(view, *, plot=None, families=None) -> CursorTools:
+    """Give a workbench view model lines, cursors, a cursor readout and the tool row.
+
+    Sets ``view.overlay`` (:class:`workbench.overlays.ModelOverlay`),
+    ``view.cursor_set``, ``view.cursor_readout`` and ``view.cursor_tools``; the
+    tool row goes above the plot and the readout below it in ``view._layout``.
+    Call :func:`show_on_view` whenever the view redraws its curve.
+    """
+    from workbench.overlays import DEFAULT_ON, ModelOverlay
+
+    plot = view.plot if plot is None else plot
+    view.overlay = ModelOverlay(plot, visible=DEFAULT_ON if families is None else families, parent=view)
+    view.cursor_set = CursorSet(plot, view=view.name, parent=view)
+    view.cursor_readout = CursorReadout(view.cursor_set)
+    view.cursor_tools = CursorTools(view.cursor_set, view.overlay, view.session)
+    layout = view._layout
+    index = layout.indexOf(plot.getViewWidget())
+    if index < 0:
+        layout.addWidget(view.cursor_tools)
+        layout.addWidget(view.cursor_readout)
+    else:
+        layout.insertWidget(index, view.cursor_tools)
+        layout.insertWidget(index + 2, view.cursor_readout)
+    return view.cursor_tools
+
+
+def show_on_view(view, table, x, amplitude, *, axis: str, scale: float, spread=None,
+                 speed_spread_frac: float = 0.0, units: str = "") -> None:
+    """Model lines and cursor data for the curve a view just drew (display units; see :class:`CursorData`).
+
+    Nothing is computed here but the positions of lines: the cursors read ``x`` and
+    ``amplitude`` as given.  ``spread`` is ``(min_hz, max_hz)`` of the table's
+    reference shaft, drawn on Hz and CPM axes.  The cursors saved in the session
+    for this view are drawn the first time (and after an undo or a session load).
+    """
+    view.overlay.set_table(table, axis=axis, scale=scale, spread=spread if axis != "order" else None)
+    view.cursor_set.set_data(CursorData(np.asarray(x), np.asarray(amplitude), axis, float(scale), table,
+                                        float(speed_spread_frac), units))
+    view.cursor_tools.restore()

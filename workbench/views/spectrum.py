@@ -6,6 +6,8 @@ frequency spectrum divided by the shaft's mean rate for velocity).  Amplitude in
 m/s2 or mm/s (the velocity spectrum of the analysis).  Marks show the gear mesh
 frequency (GMF) harmonics of the meshes on the selected shaft.  The orange region,
 shown with "Choose envelope band", sets the envelope band and re-runs the analysis.
+Model lines (switchable families, coloured by shaft), harmonic and sideband cursors
+and their readout come from :mod:`workbench.overlays` and :mod:`workbench.cursors`.
 """
 
 from __future__ import annotations
@@ -15,6 +17,7 @@ import pyqtgraph as pg
 from PySide6.QtWidgets import QCheckBox, QComboBox, QDoubleSpinBox, QHBoxLayout, QLabel, QPushButton
 
 from workbench import theme
+from workbench.cursors import attach_to_view, show_on_view
 from workbench.views.base import AnalysisView, convert_acceleration, place_mark, positive_for_log
 
 X_CHOICES = (("hz", "Hz"), ("cpm", "CPM"), ("order", "orders"))
@@ -84,6 +87,7 @@ class SpectrumView(AnalysisView):
         self.band_region.setZValue(10)
         self.plot.addItem(self.band_region, ignoreBounds=True)
         self.band_region.sigRegionChangeFinished.connect(self._on_band_finished)
+        attach_to_view(self)   # model lines, harmonic and sideband cursors, their readout (workbench.cursors)
         self._updating = False
         self._sync_controls()
         self.x_combo.currentIndexChanged.connect(self._on_controls)
@@ -185,6 +189,7 @@ class SpectrumView(AnalysisView):
         self.plot.setLabel("left", f"amplitude ({unit_text} {scaling})")
         self.plot.setLabel("bottom", x_label)
         self._draw_marks(scale, shaft)
+        self._show_model_lines(x, y, scale, unit_text, exact_orders=options.spectrum_x == "order" and units != "mm/s")
         zoom = options.spectrum_zoom_hz
         if zoom is not None:
             self.plot.setXRange(zoom[0] * scale, zoom[1] * scale, padding=0)
@@ -196,6 +201,25 @@ class SpectrumView(AnalysisView):
         band = getattr(analysis.envelope, "band_hz", None)
         self.caption.setText("" if band is None else
                              f"envelope band {band[0]:.0f} to {band[1]:.0f} Hz ({analysis.envelope.band_source})")
+
+    def _show_model_lines(self, x, y, scale: float, unit_text: str, *, exact_orders: bool) -> None:
+        """Overlays and cursor data for the curve just drawn (nothing recomputed)."""
+        from dsp.explain import speed_spread_frac
+
+        analysis = self.analysis
+        table, speed = analysis.frequencies, analysis.speed
+        axis = self.session.view_options.spectrum_x if self._scale_hz() is not None else "hz"
+        same_shaft = speed is not None and getattr(speed, "shaft", None) == table.reference_shaft
+        spread = (speed.min_hz, speed.max_hz) if same_shaft and not exact_orders else None
+        frac = 0.0 if spread is None else speed_spread_frac(speed.min_hz, speed.mean_hz, speed.max_hz)
+        show_on_view(self, table, x, y, axis=axis, scale=scale, spread=spread, speed_spread_frac=frac,
+                     units=unit_text)
+
+    def show_family(self, carrier_hz: float, spacing_hz: float, n: int = 3) -> None:
+        """Zoom onto a sideband family and put the sideband cursor on it (carrier and spacing in Hz)."""
+        half = (n + 1.5) * spacing_hz
+        self.session.set_view_options(spectrum_zoom_hz=(max(carrier_hz - half, 0.0), carrier_hz + half))
+        self.cursor_set.show_family(carrier_hz, spacing_hz, n=n)
 
     def _place_band_region(self) -> None:
         band = self.session.settings.envelope_band_hz or getattr(self.analysis.envelope, "band_hz", None)
