@@ -3,7 +3,8 @@
 The envelope band is shown in the caption and on the kurtogram; it comes from the
 kurtogram unless the analyst dragged one on the spectrum view.  Marks show the
 rotation rate of the selected shaft and its harmonics, and the defect frequencies
-of the bearings on that shaft.
+of the bearings on that shaft.  Model lines of every shaft and bearing, cursors and
+their readout come from :mod:`workbench.overlays` and :mod:`workbench.cursors`.
 """
 
 from __future__ import annotations
@@ -13,6 +14,7 @@ import pyqtgraph as pg
 from PySide6.QtWidgets import QCheckBox
 
 from workbench import theme
+from workbench.cursors import attach_to_view, show_on_view
 from workbench.views.base import AnalysisView, place_mark
 
 N_MARKS = 10
@@ -41,6 +43,8 @@ class EnvelopeView(AnalysisView):
             line.setVisible(False)
             self.plot.addItem(line, ignoreBounds=True)
             self.marks.append(line)
+        # model lines (shaft rates and bearing frequencies shown first), cursors and their readout
+        attach_to_view(self, families=("shaft harmonics", "bearings"))
         self.kurt_plot = self.add_plot(x_label="frequency (Hz)", y_label="level", stretch=2)
         self.kurt_widget = self.last_plot_widget
         self.image = pg.ImageItem(axisOrder="row-major")
@@ -75,6 +79,7 @@ class EnvelopeView(AnalysisView):
         self.plot.setLabel("left", f"{'squared envelope' if squared else 'envelope'} ({units}{'²' if squared else ''})")
         shaft = self.session.selected_shaft
         self._draw_marks(shaft)
+        self._show_model_lines(freq, amp, units + ("²" if squared else ""))
         top = self._top_frequency(shaft)
         self.plot.setXRange(0, top if top else float(freq[-1]), padding=0)
         visible = amp[freq <= (top or freq[-1])][1:]
@@ -84,6 +89,18 @@ class EnvelopeView(AnalysisView):
         self.caption.setText(f"band {lo:.0f} to {hi:.0f} Hz, "
                              + ("chosen by the kurtogram" if env.band_source == "kurtogram" else "chosen by you"))
         self._draw_kurtogram(show)
+
+    def _show_model_lines(self, freq, amp, units: str) -> None:
+        """Overlays and cursor data for the envelope spectrum just drawn (nothing recomputed)."""
+        from dsp.explain import speed_spread_frac
+
+        table, speed = self.analysis.frequencies, self.analysis.speed
+        spread, frac = None, 0.0
+        if speed is not None and getattr(speed, "shaft", None) == table.reference_shaft:
+            spread = (speed.min_hz, speed.max_hz)
+            frac = speed_spread_frac(speed.min_hz, speed.mean_hz, speed.max_hz)
+        show_on_view(self, table, freq, amp, axis="hz", scale=1.0, spread=spread, speed_spread_frac=frac,
+                     units=units)
 
     def _top_frequency(self, shaft: str | None) -> float | None:
         """Show up to ~5x the highest marked frequency, so the fault lines are readable."""
