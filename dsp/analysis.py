@@ -457,7 +457,7 @@ def _order_tracked_envelope(full, band_hz, profile, band_source: str):
 def _envelope_targets(table):
     from .suspects import EnvelopeTarget
 
-    targets = [EnvelopeTarget(f"shaft:{s.name}", "shaft rate", f"1x {s.name}", s.name, s.hz, None, 0.0)
+    targets = [EnvelopeTarget(f"shaft:{s.name}", "shaft rate", f"{s.name} rate", s.name, s.hz, None, 0.0)
                for s in table.shafts]
     for b in table.bearings:
         comp = f"bearing:{b.name}"
@@ -470,22 +470,51 @@ def _envelope_targets(table):
     return targets
 
 
-def _envelope_peaks(freq_hz, amplitude, matches, n_peaks: int = 10) -> list[dict[str, Any]]:
-    """The largest local maxima of the envelope spectrum, with any matching label."""
+def _envelope_peaks(freq_hz, amplitude, matches, n_peaks: int = 10, min_gap_lines: int = 3) -> list[dict[str, Any]]:
+    """The largest local maxima of the envelope spectrum, labelled.
+
+    Peaks closer than ``min_gap_lines`` lines or 1 % of their frequency to a
+    larger one (a line broadened by bearing slip) are left out.
+
+    A line claimed by several families gets the label of the family with the
+    most clear harmonics, then the one whose lines lie closest to its expected
+    values.
+    """
     f = np.asarray(freq_hz, dtype=float)
     a = np.asarray(amplitude, dtype=float)
     if a.size < 3:
         return []
     inner = np.flatnonzero((a[1:-1] > a[:-2]) & (a[1:-1] >= a[2:])) + 1
     inner = inner[f[inner] > 0]
-    top = inner[np.argsort(a[inner])[::-1][:n_peaks]]
+    chosen: list[int] = []
+    for i in inner[np.argsort(a[inner])[::-1]]:
+        if all(abs(int(i) - j) > max(min_gap_lines, 0.01 * i) for j in chosen):
+            chosen.append(int(i))
+        if len(chosen) == n_peaks:
+            break
     df = f[1] - f[0]
-    labels = {}
-    for m in matches:
-        for h in m.hits:
-            if h.clear:
-                labels[round(h.found_hz / df)] = f"{h.harmonic}x {m.label} ({m.component})"
-    return [{"hz": float(f[i]), "amplitude": float(a[i]), "label": labels.get(int(i))} for i in sorted(top)]
+
+    def rank(m):
+        dev = [abs(h.found_hz / (h.harmonic * m.expected_hz) - 1) for h in m.hits if h.clear] or [1.0]
+        return (m.n_clear, -float(np.mean(dev)))
+
+    from .suspects import counted_hits
+
+    labels: dict[int, str] = {}
+    for m in sorted(matches, key=rank):  # the best family writes last
+        for h in counted_hits(m.hits, df):
+            labels[int(round(h.found_hz / df))] = f"{h.harmonic}x {m.label} ({m.component})"
+    # higher harmonics of a family that stands clear (two harmonics or more)
+    for m in sorted(matches, key=rank, reverse=True):
+        hits = counted_hits(m.hits, df)
+        if len(hits) < 2:
+            continue
+        base = hits[0].found_hz
+        for i in chosen:
+            k = int(round(f[i] / base))
+            if i not in labels and k >= 1 and abs(f[i] - k * base) <= max(1.5 * df, 0.01 * k * base):
+                labels[i] = f"{k}x {m.label} ({m.component})"
+    return [{"hz": float(f[i]), "amplitude": float(a[i]), "label": labels.get(i)} for i in sorted(chosen)]
 
 
 # ---------------------------------------------------------------------------
@@ -795,6 +824,18 @@ def _clean(obj):
     return str(obj)
 
 
+def _counted(m):
+    from .suspects import counted_hits
+
+    return counted_hits(m.hits, m.resolution_hz if math.isfinite(m.resolution_hz) else 0.0)
+
+
+def _matched_axes(a: Analysis):
+    """The envelope spectrum the families were matched in (order-tracked when the speed varied)."""
+    env = a.extras.get("envelope_order_tracked") or a.envelope
+    return env.freq_hz, env.amplitude
+
+
 def _json_dict(a: Analysis) -> dict[str, Any]:
     freq = a.frequencies.to_json_dict()
     sp = a.speed
@@ -835,18 +876,19 @@ def _json_dict(a: Analysis) -> dict[str, Any]:
         "envelope": {
             "band_hz": [float(v) for v in env.band_hz],
             "band_source": env.band_source,
-            "peaks": _envelope_peaks(env.freq_hz, env.amplitude, a.envelope_matches),
+            "peaks": _envelope_peaks(*_matched_axes(a), a.envelope_matches),
+            "order_tracked": a.extras.get("envelope_order_tracked") is not None,
             "matches": [
                 {"component": m.component, "kind": m.kind, "label": m.label, "shaft": m.shaft,
                  "expected_hz": m.expected_hz, "n_clear": m.n_clear,
-                 "found_hz": [h.found_hz for h in m.hits if h.clear and h.coincides_with is None],
+                 "found_hz": [h.found_hz for h in _counted(m)],
                  "evidence": list(m.evidence)}
                 for m in a.envelope_matches if m.found
             ],
         },
         "suspects": [
             {"component": s.component, "kind": s.kind, "score": s.score, "evidence": list(s.evidence),
-             "view": s.view, "shaft": s.shaft}
+             "view": s.view, "shaft": s.shaft, "caution": getattr(s, "caution", CAUTION)}
             for s in a.suspects
         ],
         "warnings": list(a.warnings),

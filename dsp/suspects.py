@@ -180,22 +180,22 @@ def _floor_at(freq_hz: np.ndarray, amplitude: np.ndarray, f_hz: float, df: float
     return float(np.median(seg)) if seg.size else float("nan")
 
 
-def _consistent_harmonics(hits: Sequence[HarmonicHit], df: float) -> int:
-    """Clear harmonics that line up with a clear fundamental.
+def counted_hits(hits: Sequence[HarmonicHit], df: float) -> tuple[HarmonicHit, ...]:
+    """The clear harmonics that line up with a clear fundamental (those a family counts).
 
     A family counts only when its fundamental stands clear; harmonic ``h`` then
     counts when it is clear and lies within 1 % (at least 1.5 lines) of
     ``h`` times the fundamental found, so that the lines share one slip.
     """
     if not hits or not (hits[0].clear and hits[0].coincides_with is None):
-        return 0
+        return ()
     base = hits[0].found_hz
-    n = 0
-    for h in hits:
-        if h.clear and h.coincides_with is None and abs(h.found_hz - h.harmonic * base) <= max(
-                1.5 * df, 0.01 * h.harmonic * base):
-            n += 1
-    return n
+    return tuple(h for h in hits if h.clear and h.coincides_with is None
+                 and abs(h.found_hz - h.harmonic * base) <= max(1.5 * df, 0.01 * h.harmonic * base))
+
+
+def _consistent_harmonics(hits: Sequence[HarmonicHit], df: float) -> int:
+    return len(counted_hits(hits, df))
 
 
 def match_envelope(
