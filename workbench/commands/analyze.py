@@ -81,10 +81,12 @@ def format_summary(d: dict, baseline_lines: list[str] | None = None) -> str:
                        f"spacing {f['spacing_hz']:.2f} Hz, {f['n_found']} clear, SI {_num(f['sideband_index'])}, "
                        f"SLF {_num(f['sideband_level_factor'])}")
     env = d["envelope"]
-    out.append(f"Envelope band {env['band_hz'][0]:.0f}-{env['band_hz'][1]:.0f} Hz ({env['band_source']}); "
-               + (", ".join(f"{m['label']} of {m['component']} ({m['n_clear']} harmonics)"
-                            for m in env["matches"] if m["n_clear"] >= 2)
-                  or "no bearing or shaft family stands clear with two harmonics or more"))
+    named = {s["component"] for s in d["suspects"]}
+    shown = [m for m in env["matches"] if m["n_clear"] >= 3 or (m["n_clear"] >= 2 and m["component"] in named)]
+    out.append(f"Envelope band {env['band_hz'][0]:.0f}-{env['band_hz'][1]:.0f} Hz ({env['band_source']}"
+               + (", order-tracked" if env.get("order_tracked") else "") + "); "
+               + (", ".join(f"{m['label']} of {m['component']} ({m['n_clear']} harmonics)" for m in shown)
+                  or "no bearing or shaft family stands clear with three harmonics or more"))
     if baseline_lines:
         out.extend(baseline_lines)
     if d["suspects"]:
