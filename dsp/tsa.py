@@ -266,6 +266,7 @@ class _Angles:
         self._h32 = tuple(h.astype(np.float32) for h in self._h)
         self._dh32 = tuple(h.astype(np.float32) for h in self._dh)
         self._om32 = self._om.astype(np.float32)
+        self._s32 = s.astype(np.float32)
 
     def chunk(self, j0: int, j1: int, delta: np.ndarray, dtheta: np.ndarray):
         """Angles of the samples of blocks j0..j1-1 relative to each block's start.
@@ -288,10 +289,12 @@ class _Angles:
         de += tmp
         np.multiply(om1, h11, out=tmp)
         de += tmp
+        # angle spanned by each sample = speed x 1/fs, the speed taken linear within the
+        # block (differs from the cubic's derivative by ~h^2 (3rd derivative) / speed, ~1e-6)
         dth = tmp
-        np.multiply(om1, d11, out=dth)
-        dth += om0 * d10
-        dth += step * d01
+        np.multiply(om1 - om0, self._s32, out=dth)
+        dth += om0
+        dth *= np.float32(1.0 / _BLOCK)
         return de, dth
 
     def speed_range(self, lo_rev: float, hi_rev: float) -> tuple[float, float]:
@@ -337,7 +340,12 @@ class _Shaft:
         # interior samples (weight 1): strictly more than _EDGE_HALF samples from both boundaries
         self.k0 = int(math.floor(self.u_a + _EDGE_HALF)) + 1
         self.k1 = int(math.ceil(self.u_b - _EDGE_HALF))          # exclusive
-        self.grid = np.zeros(G, dtype=np.complex64)   # (sum y, sum y mu) per left cell
+        # cells touched from a block's start cell: at most one block's angle step; a tail of
+        # that many cells past G takes them without a modulo, folded back in coefficients()
+        step = float(np.max(np.diff(ang.block_theta))) * r * G
+        self.tail = int(math.ceil(step)) + 3
+        self.fast = G + self.tail < (1 << 24)          # cell numbers exact in float32
+        self.grid = np.zeros(G + self.tail, dtype=np.complex64)   # (sum y, sum y mu) per left cell
         smin, smax = ang.speed_range(a / r, (a + N) / r)
         self.shaft_min_hz, self.shaft_max_hz = smin * r, smax * r
         k_nyq = int(math.floor(fs / (2.0 * self.shaft_max_hz) * (1 - 1e-9)))
@@ -346,38 +354,34 @@ class _Shaft:
             kmax = min(kmax, int(max_order))
         self.kmax = max(kmax, 0)
 
-    def _wrap(self, n: np.ndarray) -> None:
-        if self.mask is not None:
-            np.bitwise_and(n, self.mask, out=n)
-        else:
-            np.remainder(n, self.G, out=n)
-
-    def spread_blocks(self, block_theta, delta, y, buf_g, buf_fl, buf_n, buf_v):
+    def spread_blocks(self, block_theta, delta, y, v, buf_g, buf_fl, buf_n, write_real: bool):
         """Spread samples given as block angle (float64) + offsets (float32) with weights y.
 
-        ``block_theta`` has shape (m,), ``delta`` and ``y`` shape (m, _BLOCK).
+        ``block_theta`` has shape (m,), ``delta``, ``y`` and the complex buffer ``v``
+        shape (m, _BLOCK); ``v.real`` already holds ``y`` unless ``write_real``.
         """
         m = delta.shape[0]
         scale = self.r * self.G
         base = block_theta * scale                       # grid position of each block start
         base_int = np.floor(base)
         base_frac = (base - base_int).astype(np.float32)[:, None]
-        base_cell = (base_int.astype(np.int64) % self.G).astype(np.int32)[:, None]
+        base_cell = np.mod(base_int, self.G)[:, None]
         g = buf_g[: m * _BLOCK].reshape(m, _BLOCK)
         np.multiply(delta, np.float32(scale), out=g)
         g += base_frac
         fl = buf_fl[: m * _BLOCK].reshape(m, _BLOCK)
-        np.floor(g, out=fl)
-        g -= fl                                          # fractional part mu, float32
+        np.floor(g, out=fl)                              # whole cells (g >= 0)
+        g -= fl                                          # fractional part mu
         # one complex accumulation: real part sum(y), imaginary part sum(y * mu) per left cell;
         # the linear kernel puts y (1 - mu) on the left cell and y mu on the right one
-        v = buf_v[: m * _BLOCK].reshape(m, _BLOCK)
-        v.real[...] = y
+        if write_real:
+            v.real[...] = y
         np.multiply(y, g, out=v.imag)
-        n = buf_n[: m * _BLOCK].reshape(m, _BLOCK)
-        n[...] = fl
-        n += base_cell
-        self._wrap(n)
+        if self.fast:
+            n = buf_n[: m * _BLOCK].reshape(m, _BLOCK)
+            np.add(fl, base_cell.astype(np.float32), out=n, casting="unsafe")
+        else:
+            n = fl.astype(np.int64) + base_cell.astype(np.int64)
         np.add.at(self.grid, n.ravel(), v.ravel())
 
     def spread_exact(self, theta, y):
@@ -385,7 +389,7 @@ class _Shaft:
         g = theta * (self.r * self.G)
         n = np.floor(g)
         mu = g - n
-        c0 = n.astype(np.int64) % self.G
+        c0 = n.astype(np.int64) % self.G                 # cell G - 1 spills into the tail
         np.add.at(self.grid, c0, (y + 1j * (y * mu)).astype(np.complex64))
 
     def add_edges(self, xs, ang: _Angles):
@@ -412,10 +416,10 @@ class _Shaft:
 
         P, G = self.P, self.G
         g0, g1 = self.grid.real, self.grid.imag
-        spread = g0 - g1
-        spread[1:] += g1[:-1]
-        spread[0] += g1[-1]
-        spec = scipy.fft.rfft(spread)[: P // 2 + 1].astype(np.complex128)
+        ext = g0 - g1
+        ext[1:] += g1[:-1]
+        ext[: self.tail] += ext[G:]                      # fold the tail back onto the revolution
+        spec = scipy.fft.rfft(ext[:G])[: P // 2 + 1].astype(np.complex128)
         kk = np.arange(P // 2 + 1, dtype=np.float64)
         coef = spec * (self.r / self.N) / np.sinc(kk / G) ** 2
         coef[self.kmax + 1:] = 0.0
@@ -439,6 +443,8 @@ def _average_shafts(xs: np.ndarray, ang: _Angles, shafts: list[_Shaft]) -> None:
         c0, c1 = j0 * _BLOCK, j1 * _BLOCK
         np.multiply(y, xs[c0:c1].reshape(m, _BLOCK), out=y)
         th0 = ang.block_theta[j0:j1]
+        v = buf_v[: m * _BLOCK].reshape(m, _BLOCK)
+        real_holds_y = False
         for s in shafts:
             if s.k1 <= c0 or s.k0 >= c1:
                 continue
@@ -448,9 +454,11 @@ def _average_shafts(xs: np.ndarray, ang: _Angles, shafts: list[_Shaft]) -> None:
                 flat = ys.reshape(-1)
                 flat[: max(s.k0 - c0, 0)] = 0.0
                 flat[max(s.k1 - c0, 0):] = 0.0
+                s.spread_blocks(th0, de, ys, v, buf_g, buf_fl, buf_n, True)
+                real_holds_y = False
             else:
-                ys = y
-            s.spread_blocks(th0, de, ys, buf_g, buf_fl, buf_n, buf_v)
+                s.spread_blocks(th0, de, y, v, buf_g, buf_fl, buf_n, not real_holds_y)
+                real_holds_y = True
     for s in shafts:
         s.add_edges(xs, ang)
 
