@@ -188,6 +188,7 @@ class MainWindow(QMainWindow):
         self.addDockWidget(Qt.DockWidgetArea.LeftDockWidgetArea, left)
         self.results = ResultsPanel()
         self.results.suspect_chosen.connect(self.show_suspect)
+        self.results.sideband_chosen.connect(self.show_sideband_family)
         right = QDockWidget("Results", self)
         right.setObjectName("results_dock")
         right.setWidget(self.results)
@@ -496,6 +497,11 @@ class MainWindow(QMainWindow):
             self.session.select_shaft(shaft)
         if view in VIEW_NAMES:
             self.session.set_current_view(view)
+
+    def show_sideband_family(self, carrier_hz: float, spacing_hz: float, _owner: str = "") -> None:
+        """Show the spectrum with the sideband cursor on a family chosen in the ownership table."""
+        self.session.set_current_view("spectrum")
+        self.views["spectrum"].show_family(carrier_hz, spacing_hz)
 
     def closeEvent(self, event):  # noqa: N802 - Qt override
         self.runner.shutdown()

@@ -79,6 +79,7 @@ def _fill(table: QTableWidget, rows: list[list[str]], colours: list[str | None] 
 
 class ResultsPanel(QWidget):
     suspect_chosen = Signal(str, str)   # view name, shaft name ("" when none)
+    sideband_chosen = Signal(float, float, str)   # carrier Hz, spacing Hz, owner shaft ("" when none)
 
     def __init__(self, parent: QWidget | None = None):
         super().__init__(parent)
@@ -87,6 +88,9 @@ class ResultsPanel(QWidget):
         self.overall = _table(["indicator", "value"])
         self.tsa = _table(["shaft", "revs"] + list(TSA_KEYS))
         self.sidebands = _table([text for _, text in SIDEBAND_COLUMNS])
+        self.sidebands.setToolTip("Choose a row to put the sideband cursor on that family in the spectrum")
+        self.sidebands.cellClicked.connect(self._on_sideband)
+        self._families: list[Any] = []
         self.suspects = QListWidget()
         self.suspects.setWordWrap(True)
         self.suspects.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
@@ -117,6 +121,7 @@ class ResultsPanel(QWidget):
             rows.append([item.shaft, str(item.n_revs)] + [fmt(item.indicators.get(k)) for k in TSA_KEYS])
             colours.append(theme.shaft_colour(self.model, item.shaft))
         _fill(self.tsa, rows, colours)
+        self._families = list(analysis.sidebands)
         rows = [[fmt(_sideband_value(family, key)) for key, _ in SIDEBAND_COLUMNS] for family in analysis.sidebands]
         _fill(self.sidebands, rows, [theme.shaft_colour(self.model, getattr(f, "owner_shaft", None))
                                      for f in analysis.sidebands], colour_column=3)
@@ -148,6 +153,11 @@ class ResultsPanel(QWidget):
                 if bearing.name == name:
                     return bearing.shaft
         return ""
+
+    def _on_sideband(self, row: int, _column: int = 0) -> None:
+        if 0 <= row < len(self._families):
+            family = self._families[row]
+            self.sideband_chosen.emit(float(family.carrier_hz), float(family.spacing_hz), family.owner_shaft or "")
 
     def _on_suspect(self, item: QListWidgetItem) -> None:
         view, shaft = item.data(Qt.ItemDataRole.UserRole)

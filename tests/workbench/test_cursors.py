@@ -32,18 +32,23 @@ RPM = 600.0              # input 10 Hz: GMF 400 Hz, output 26.667 Hz (domain ref
 
 
 @pytest.fixture(scope="module")
-def analysis(tmp_path_factory):
-    from dsp.analysis import Settings, analyze
-    from dsp.recording import read_recording
+def sim_path(tmp_path_factory):
     from dsp.synth import Fault, simulate, write_simulation
 
     train = load_model(DATA / "pair_40_15.toml")
     sim = simulate(train, rpm=RPM, duration_s=4.0, fs=8192.0, seed=5,
                    faults=(Fault("tooth", f"main pair:{FAULT_SHAFT}", severity="severe"),))
     path = tmp_path_factory.mktemp("cursors") / "tooth.flac"
-    write_simulation(sim, path, train)
-    model = load_model(path.with_suffix(".toml"))
-    return analyze(read_recording(path), model, Settings())
+    write_simulation(sim, path, train)   # and tooth.toml beside it
+    return path
+
+
+@pytest.fixture(scope="module")
+def analysis(sim_path):
+    from dsp.analysis import Settings, analyze
+    from dsp.recording import read_recording
+
+    return analyze(read_recording(sim_path), load_model(sim_path.with_suffix(".toml")), Settings())
 
 
 def hz_data(analysis) -> CursorData:
@@ -302,3 +307,44 @@ def test_cursor_tools_keep_the_session_and_undo(analysis, plot, qtbot):
     assert cursors.cursors == [] and session.cursors == [envelope_entry]
     history.redo()
     assert len(cursors.cursors) == 1 and cursors.cursors[0].centre == pytest.approx(400.0)
+
+
+def test_window_sideband_row_puts_the_cursor_on_the_family(qtbot, tmp_path, sim_path):
+    from PySide6.QtCore import QSettings
+
+    from workbench import theme
+    from workbench.main_window import MainWindow
+
+    theme.configure_pyqtgraph()
+    window = MainWindow(settings_store=QSettings(str(tmp_path / "settings.ini"), QSettings.Format.IniFormat))
+    qtbot.addWidget(window)
+    window.resize(1400, 900)
+    window.show()
+    try:
+        with qtbot.waitSignal(window.analysis_shown, timeout=60_000):
+            window.open_recording(sim_path)
+        analysis = window.analysis
+        row = next(i for i, f in enumerate(analysis.sidebands) if f.harmonic == 1)
+        family = analysis.sidebands[row]
+        window.results.sidebands.cellClicked.emit(row, 0)
+        view = window.views["spectrum"]
+        assert window.tabs.currentWidget() is view
+        cursor = view.cursor_set.active
+        assert isinstance(cursor, SidebandCursor)
+        assert cursor.centre == pytest.approx(family.carrier_hz) and cursor.spacing == pytest.approx(family.spacing_hz)
+        # the table's owner, the cursor's readout and the simulator's truth agree
+        assert family.owner_shaft == FAULT_SHAFT  # dsp.synth truth
+        assert cursor.readout().extra["owner"] == FAULT_SHAFT
+        assert f"= {FAULT_SHAFT} shaft rate" in view.cursor_readout.summary.text()
+        lo, hi = window.session.view_options.spectrum_zoom_hz
+        assert lo < family.carrier_hz - 3 * family.spacing_hz and hi > family.carrier_hz + 3 * family.spacing_hz
+        saved = [c for c in window.session.cursors if c["view"] == "spectrum"]
+        assert saved[-1]["spacing"] == pytest.approx(family.spacing_hz)
+        # orders of the selected (tach) shaft: GMF at 40 orders, output spacing 40/15 (domain reference 1.1)
+        window.session.set_view_options(spectrum_x="order")
+        cursor = view.cursor_set.active
+        assert cursor.centre == pytest.approx(40.0, rel=1e-3) and cursor.spacing == pytest.approx(40 / 15, rel=1e-3)
+        assert cursor.best_match().shaft == FAULT_SHAFT
+        assert np.min(np.abs(view.overlay.positions("mesh harmonics") - 40.0)) < 1e-9
+    finally:
+        window.runner.shutdown()
