@@ -125,6 +125,10 @@ class MainWindow(QMainWindow):
         self.session.subscribe(self._on_session_event)
         self._painted = False
         self.resize(1600, 1000)
+        from workbench.document_actions import DocumentActions
+
+        # sessions, autosave, undo/redo, notes, snapshots, findings and the report
+        self.document = DocumentActions(self)
 
     def showEvent(self, event):  # noqa: N802 - Qt override
         super().showEvent(event)

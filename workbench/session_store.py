@@ -408,7 +408,10 @@ def discard_autosave(path: str | Path | None) -> None:
 
 
 class Autosaver:
-    """Writes the document at most every ``interval_s`` seconds while it has unsaved changes.
+    """Writes the document every ``interval_s`` seconds while it has unsaved changes.
+
+    An autosave comes ``interval_s`` after the first change not yet written, so no
+    change stays only in memory for longer than that (plus the timer's period).
 
     The window calls :meth:`mark_dirty` on every change of the document and
     :meth:`tick` from a timer; :meth:`saved` after a real save.  Time comes from
@@ -433,11 +436,14 @@ class Autosaver:
         self.interval_s = float(interval_s)
         self.clock = clock
         self.dirty = False
+        self.dirty_since_s: float | None = None
         self.last_write_s: float | None = None
         self.last_path: Path | None = None
         self.last_error: str | None = None
 
     def mark_dirty(self) -> None:
+        if not self.dirty:
+            self.dirty_since_s = self.clock()
         self.dirty = True
 
     def saved(self) -> None:
@@ -451,7 +457,7 @@ class Autosaver:
         if not self.dirty:
             return None
         now = self.clock()
-        if not force and self.last_write_s is not None and now - self.last_write_s < self.interval_s:
+        if not force and self.dirty_since_s is not None and now - self.dirty_since_s < self.interval_s:
             return None
         path = self.path_fn()
         if path is None:
