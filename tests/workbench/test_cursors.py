@@ -348,3 +348,27 @@ def test_window_sideband_row_puts_the_cursor_on_the_family(qtbot, tmp_path, sim_
         assert np.min(np.abs(view.overlay.positions("mesh harmonics") - 40.0)) < 1e-9
     finally:
         window.runner.shutdown()
+
+
+def test_cursors_survive_a_session_file(analysis, plot, qtbot, tmp_path):
+    from workbench.cursors import CursorTools
+    from workbench.session import Session
+    from workbench.session_store import load_session, save_session
+
+    session = Session()
+    cursors = CursorSet(plot, view="spectrum")
+    cursors.set_data(hz_data(analysis))
+    tools = CursorTools(cursors, None, session)
+    qtbot.addWidget(tools)
+    cursors.add_sideband(400.0, 26.5, n=2)
+    cursors.add_harmonic(123.25)
+    path = save_session(session, tmp_path / "s.json")
+    loaded = load_session(path, check_recording=False).session
+    assert loaded.cursors == session.cursors  # JSON round trip, exact floats (json module)
+    again = CursorSet(plot, view="spectrum")
+    again.set_data(hz_data(analysis))
+    tools2 = CursorTools(again, None, loaded)
+    qtbot.addWidget(tools2)
+    tools2.restore()
+    assert again.to_list() == cursors.to_list()
+    assert again.cursors[0].best_match().shaft == FAULT_SHAFT  # 26.5 Hz within tolerance of 26.667 Hz
