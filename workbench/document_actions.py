@@ -104,6 +104,9 @@ class DocumentActions(QObject):
         for view in window.views.values():
             if getattr(view, "plot", None) is not None:
                 self.annotations.attach(view)
+            tools = getattr(view, "cursor_tools", None)
+            if tools is not None and getattr(tools, "history", None) is None:
+                tools.history = self.history     # cursor moves become undoable steps
         self.autosaver = session_store.Autosaver(lambda: self.session, self.autosave_path)
         self._loading = False
         self._build_docks()

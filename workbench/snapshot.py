@@ -218,6 +218,7 @@ def session_for_recipe(recipe: dict[str, Any], model: Any) -> Any:
         raise SnapshotError(f"the recipe's view options cannot be used ({exc})") from None
     session = Session(model=model, settings=settings_from_dict(recipe["settings"]), view_options=view_options,
                       current_view=recipe["view"]["name"])
+    session.cursors = [dict(c) for c in recipe.get("cursors") or []]
     if shaft is not None and model is not None and shaft in model.shaft_names():
         session.selected_shaft = shaft
     elif model is not None and model.shafts:
