@@ -727,7 +727,9 @@ class CursorReadout(QWidget):
         if cursor is None or cursor.data is None:
             self.summary.setText("no cursor: add a harmonic or sideband cursor" if cursor is None else "")
             self.table.setRowCount(0)
+            self.table.setVisible(False)
             return
+        self.table.setVisible(True)
         readout = cursor.readout()
         self.summary.setText(f"{readout.title}: {readout.summary}")
         if self.table.rowCount() != len(readout.rows):
