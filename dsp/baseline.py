@@ -260,6 +260,9 @@ class BaselineComparison:
         Current TSA angle axis per shaft.
     baseline_tsa : dict of str to ndarray
         Baseline TSA per shaft on ``tsa_angle_deg[shaft]``.
+    baseline_tsa_signals : dict of str to dict of str to ndarray
+        Per shaft, the baseline ``"average"``, ``"residual"`` and
+        ``"difference"`` signals on ``tsa_angle_deg[shaft]``.
     envelope_order : ndarray
         Current envelope spectrum axis in orders of the reference shaft.
     envelope_now : ndarray
@@ -295,6 +298,7 @@ class BaselineComparison:
     baseline_order_amplitude: np.ndarray
     tsa_angle_deg: dict[str, np.ndarray]
     baseline_tsa: dict[str, np.ndarray]
+    baseline_tsa_signals: dict[str, dict[str, np.ndarray]]
     envelope_order: np.ndarray
     envelope_now: np.ndarray
     baseline_envelope_amplitude: np.ndarray
@@ -978,17 +982,22 @@ def compare(current, baseline, *, thresholds: Thresholds = Thresholds()) -> Base
     # --- TSA overlays ---------------------------------------------------------------
     tsa_angle: dict[str, np.ndarray] = {}
     tsa_base: dict[str, np.ndarray] = {}
+    tsa_signals: dict[str, dict[str, np.ndarray]] = {}
     for cur_t in current.tsa:
         base_t = baseline.tsa_for(cur_t.shaft)
         if base_t is None:
             continue
         ang = np.asarray(cur_t.angle_deg, dtype=float)
         b_ang = np.asarray(base_t.angle_deg, dtype=float)
-        b_avg = np.asarray(base_t.average, dtype=float) * uf
-        # periodic interpolation over one revolution
-        yy = np.interp(np.mod(ang, 360.0), np.append(b_ang, b_ang[0] + 360.0), np.append(b_avg, b_avg[0]))
         tsa_angle[cur_t.shaft] = _readonly(ang)
-        tsa_base[cur_t.shaft] = _readonly(yy)
+        signals = {}
+        for which in ("average", "residual", "difference"):
+            b_sig = np.asarray(getattr(base_t, which), dtype=float) * uf
+            # periodic interpolation over one revolution
+            signals[which] = _readonly(np.interp(np.mod(ang, 360.0), np.append(b_ang, b_ang[0] + 360.0),
+                                                 np.append(b_sig, b_sig[0])))
+        tsa_signals[cur_t.shaft] = signals
+        tsa_base[cur_t.shaft] = signals["average"]
 
     # --- envelope spectra in orders -----------------------------------------------
     ref_now = float(current.frequencies.reference_hz)
@@ -1025,6 +1034,7 @@ def compare(current, baseline, *, thresholds: Thresholds = Thresholds()) -> Base
         baseline_order_amplitude=_readonly(base_on_cur),
         tsa_angle_deg=tsa_angle,
         baseline_tsa=tsa_base,
+        baseline_tsa_signals=tsa_signals,
         envelope_order=_readonly(env_o),
         envelope_now=_readonly(current.envelope.amplitude),
         baseline_envelope_amplitude=_readonly(env_b),

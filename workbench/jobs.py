@@ -4,8 +4,10 @@ The GUI thread builds an immutable :class:`AnalysisRequest` (recording, model,
 settings and a generation number) and hands it to :class:`AnalysisRunner`, which
 runs one request at a time on one worker thread.  A newer request sets the cancel
 flag of the older one (``dsp.analysis.analyze`` checks it between steps); results
-of stale generations are dropped.  Everything comes back by Qt signal, delivered in
-the GUI thread:
+of stale generations are dropped.  A request belongs to a ``lane`` (``"current"``
+by default; the window also uses ``"baseline"`` for the healthy baseline recording):
+a newer request cancels only the older ones of its own lane, and the lanes share the
+one worker thread.  Everything comes back by Qt signal, delivered in the GUI thread:
 
 - ``started(generation)``
 - ``progress(generation, fraction, text)``
@@ -45,6 +47,7 @@ class AnalysisRequest:
     model: Any                     # dsp.model.GearTrain
     settings: Any                  # dsp.analysis.Settings
     recording_path: Path | None = None
+    lane: str = "current"
 
 
 @dataclass(frozen=True)
@@ -55,6 +58,7 @@ class JobResult:
     recording: Any
     analysis: Any
     elapsed_s: float
+    lane: str = "current"
 
 
 def default_analyze(recording, model, settings, progress, cancel):
@@ -127,7 +131,7 @@ class _Job(QRunnable):
         except Exception as exc:  # noqa: BLE001 - one place reports everything unexpected
             signals.crashed.emit(gen, f"{type(exc).__name__}: {exc}", traceback.format_exc())
         else:
-            signals.finished.emit(gen, JobResult(gen, recording, analysis, time.perf_counter() - t0))
+            signals.finished.emit(gen, JobResult(gen, recording, analysis, time.perf_counter() - t0, request.lane))
 
 
 class AnalysisRunner(QObject):
@@ -159,6 +163,8 @@ class AnalysisRunner(QObject):
         self._read_fn = read_fn or default_read
         self._generation = 0
         self._cancel_events: dict[int, threading.Event] = {}
+        self._lanes: dict[int, str] = {}          # generation -> lane
+        self._latest: dict[str, int] = {}         # lane -> newest generation
         self._signals = _Signals()
         self._signals.started.connect(self._on_started)
         self._signals.progress.connect(self._on_progress)
@@ -176,24 +182,37 @@ class AnalysisRunner(QObject):
     def is_busy(self) -> bool:
         return bool(self._cancel_events)
 
-    def submit(self, *, recording: Any, model: Any, settings: Any, recording_path: Path | None = None) -> AnalysisRequest:
-        """Queue a new analysis; any older one is cancelled and its result will be dropped."""
+    def submit(self, *, recording: Any, model: Any, settings: Any, recording_path: Path | None = None,
+               lane: str = "current") -> AnalysisRequest:
+        """Queue a new analysis; any older one of the same ``lane`` is cancelled and its result dropped."""
         if recording is None and recording_path is None:
             raise ValueError("give the recording or the path to read it from")
-        self.cancel()
+        self.cancel(lane=lane)
         self._generation += 1
         request = AnalysisRequest(self._generation, recording, model, settings,
-                                  None if recording_path is None else Path(recording_path))
+                                  None if recording_path is None else Path(recording_path), lane)
         event = threading.Event()
         self._cancel_events[request.generation] = event
+        self._lanes[request.generation] = lane
+        self._latest[lane] = request.generation
         self._pool.start(_Job(request, event, self._signals, self._analyze_fn, self._read_fn))
         self.busy_changed.emit(True)
         return request
 
-    def cancel(self) -> None:
-        """Ask every running or queued request to stop."""
-        for event in self._cancel_events.values():
-            event.set()
+    def cancel(self, *_args, lane: str | None = None) -> None:
+        """Ask every running or queued request (of ``lane`` only, when given) to stop.
+
+        Extra positional arguments (the ``checked`` flag of a button's ``clicked``) are ignored.
+        """
+        if not isinstance(lane, str):
+            lane = None
+        for gen, event in self._cancel_events.items():
+            if lane is None or self._lanes.get(gen, "current") == lane:
+                event.set()
+
+    def lane_of(self, gen: int) -> str:
+        """The lane of generation ``gen`` (``"current"`` when unknown)."""
+        return self._lanes.get(gen, "current")
 
     def wait(self, timeout_ms: int = -1) -> bool:
         """Block until the worker is idle (for shutdown and tests)."""
@@ -206,7 +225,7 @@ class AnalysisRunner(QObject):
 
     # -- relays (GUI thread); stale generations are dropped
     def _current(self, gen: int) -> bool:
-        return gen == self._generation
+        return gen == self._latest.get(self._lanes.get(gen, "current"), self._generation)
 
     def _done(self, gen: int) -> None:
         self._cancel_events.pop(gen, None)

@@ -123,6 +123,9 @@ class MainWindow(QMainWindow):
         self.runner.cancelled.connect(self._on_cancelled)
         self.runner.crashed.connect(lambda _g, msg, trace: self.report_unexpected(msg, trace))
         self.session.subscribe(self._on_session_event)
+        from workbench.baseline_panel import BaselineController
+
+        self.baseline = BaselineController(self)   # baseline comparison and severity dock, File menu entries
         self._painted = False
         self.resize(1600, 1000)
         from workbench.document_actions import DocumentActions
@@ -446,7 +449,12 @@ class MainWindow(QMainWindow):
         if text:
             self.status_label.setText(text)
 
+    def _lane(self, gen: int) -> str:
+        return self.runner.lane_of(gen) if hasattr(self.runner, "lane_of") else "current"
+
     def _on_finished(self, _gen: int, result: Any) -> None:
+        if getattr(result, "lane", "current") != "current":
+            return   # the baseline lane: workbench.baseline_panel.BaselineController
         self.recording = result.recording
         self.analysis = result.analysis
         self.last_error = None
@@ -464,6 +472,8 @@ class MainWindow(QMainWindow):
         self.idle.emit()
 
     def _on_failed(self, _gen: int, message: str) -> None:
+        if self._lane(_gen) != "current":
+            return
         self.last_error = message
         kept = " The last good result stays on screen." if self.analysis is not None else ""
         self.banner.set_part("analysis", "error", f"{message}.{kept}".replace("..", "."))
@@ -472,6 +482,8 @@ class MainWindow(QMainWindow):
         self.idle.emit()
 
     def _on_cancelled(self, _gen: int) -> None:
+        if self._lane(_gen) != "current":
+            return
         self._set_busy(False, "Analysis cancelled" + ("; showing the last result" if self.analysis is not None else ""))
         self.idle.emit()
 

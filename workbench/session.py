@@ -29,7 +29,7 @@ TSA_SIGNALS = ("average", "residual", "difference")
 
 # Event kinds a subscriber may receive.
 EVENT_KINDS = ("recording", "model", "settings", "shaft", "view_options", "view",
-               "cursors", "annotations", "snapshots", "findings")
+               "cursors", "annotations", "snapshots", "findings", "baseline")
 
 
 @dataclass(frozen=True)
@@ -219,6 +219,13 @@ class Session:
     def set_snapshots(self, items: list[dict[str, Any]]) -> None:
         """Replace the snapshot list (``id, recipe, png, svg, caption, view`` each)."""
         self._set_list("snapshots", items)
+
+    def set_baseline(self, path: str | Path | None) -> None:
+        """The healthy baseline recording of the same gearbox to compare with (``None``: none)."""
+        value = None if path is None else str(path)
+        if value != self.baseline_path:
+            self.baseline_path = value
+            self._emit("baseline", value)
 
     def set_findings(self, text: str) -> None:
         """The analyst's findings and recommendation (plain text)."""

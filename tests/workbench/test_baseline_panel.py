@@ -112,3 +112,57 @@ def test_comparison_table_and_grown_families(panel, comparison, qtbot):
     assert panel.indicators.rowCount() == 0 and not panel.show_overlay.isEnabled()
     # the severity box still shows a zone with its caution for the real analysis
     assert panel.zone is not None and panel.caution_label.isVisible()
+
+
+# --- in the window ------------------------------------------------------------------------
+
+DEMO = ROOT / "demo_recordings"
+TIMEOUT_MS = 60_000
+
+
+@pytest.fixture
+def window(qtbot, tmp_path):
+    from PySide6.QtCore import QSettings
+
+    from workbench import theme
+    from workbench.main_window import MainWindow
+
+    theme.configure_pyqtgraph()
+    w = MainWindow(settings_store=QSettings(str(tmp_path / "settings.ini"), QSettings.Format.IniFormat))
+    qtbot.addWidget(w)
+    w.resize(1400, 900)
+    w.show()
+    yield w
+    w.runner.shutdown()
+
+
+def test_window_loads_a_baseline_and_overlays_it(qtbot, window):
+    with qtbot.waitSignal(window.analysis_shown, timeout=TIMEOUT_MS):
+        window.open_recording(DEMO / "03_broken_tooth.flac")
+    controller = window.baseline
+    texts = [a.text() for a in window.menuBar().actions()[0].menu().actions()]
+    assert "Load &baseline recording..." in texts
+    with qtbot.waitSignal(controller.compared, timeout=TIMEOUT_MS,
+                          check_params_cb=lambda c: c is not None):
+        controller.load_baseline(DEMO / "01_healthy_baseline.flac")
+    cmp = controller.comparison
+    assert window.session.baseline_path == str(DEMO / "01_healthy_baseline.flac")
+    assert window.session.to_dict() is not None
+    # demo README: 03 is a broken tooth on the intermediate wheel; 01 is the healthy baseline
+    assert cmp.indicator("fm4", "intermediate").flag == "grown"
+    assert controller.panel.indicators.rowCount() == len(cmp.indicators)
+    assert window.results.suspects.item(0).text().startswith("1. shaft:intermediate")
+    window.session.select_shaft("intermediate")
+    window.session.set_view_options(spectrum_x="order", spectrum_units="g")
+    for name in ("spectrum", "tsa", "envelope"):
+        assert controller.overlays.has_data(name), name
+    # the baseline TSA of the intermediate shaft is drawn on the current angle axis
+    x, y = controller.overlays.items["tsa"].getData()
+    np.testing.assert_allclose(x, cmp.tsa_angle_deg["intermediate"])
+    controller.panel.show_overlay.setChecked(False)
+    assert not any(controller.overlays.has_data(n) for n in ("spectrum", "tsa", "envelope"))
+    # the caution is shown with the zone
+    assert controller.panel.zone is not None and controller.panel.caution_label.isVisible()
+    with qtbot.waitSignal(controller.compared, timeout=TIMEOUT_MS):
+        window.session.set_baseline(None)
+    assert controller.comparison is None and controller.panel.indicators.rowCount() == 0
