@@ -166,3 +166,43 @@ def test_window_loads_a_baseline_and_overlays_it(qtbot, window):
     with qtbot.waitSignal(controller.compared, timeout=TIMEOUT_MS):
         window.session.set_baseline(None)
     assert controller.comparison is None and controller.panel.indicators.rowCount() == 0
+
+
+# --- the runner's lanes ---------------------------------------------------------------------
+
+
+def test_runner_lanes_cancel_only_their_own_requests(qtbot):
+    import time
+
+    from workbench.jobs import AnalysisRunner
+
+    def fn(recording, model, settings, progress, cancel):
+        t0 = time.perf_counter()
+        while time.perf_counter() - t0 < 0.2:
+            if cancel():
+                from dsp.errors import Cancelled
+
+                raise Cancelled()
+            time.sleep(0.005)
+        return settings
+
+    r = AnalysisRunner(analyze_fn=fn)
+    finished, cancelled = [], []
+    r.finished.connect(lambda gen, res: finished.append((res.lane, res.analysis)))
+    r.cancelled.connect(cancelled.append)
+    try:
+        base = r.submit(recording="rec", model="m", settings="baseline", lane="baseline")
+        old = r.submit(recording="rec", model="m", settings="old")
+        new = r.submit(recording="rec", model="m", settings="new")     # cancels "old" only
+        qtbot.waitUntil(lambda: not r.is_busy(), timeout=10_000)
+        # conventions.md rule 6: newest request wins, per lane; the baseline lane is left alone
+        assert sorted(finished) == [("baseline", "baseline"), ("current", "new")]
+        assert r.lane_of(base.generation) == "baseline" and r.lane_of(new.generation) == "current"
+        assert old.generation in cancelled or ("current", "old") not in finished
+        # a button's clicked(checked) reaching cancel() cancels everything
+        r.submit(recording="rec", model="m", settings="again", lane="baseline")
+        r.cancel(False)
+        qtbot.waitUntil(lambda: not r.is_busy(), timeout=10_000)
+        assert ("baseline", "again") not in finished
+    finally:
+        r.shutdown()
