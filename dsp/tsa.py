@@ -11,18 +11,18 @@ time samples weighted by the angle each sample spans (the derivative of the
 profile), so revolution boundaries fall at any sub-sample angle and the signal itself
 is never interpolated.  The window's two ends are smooth steps (an erf of standard
 deviation 9 samples centred on the exact boundary time), which makes the sum
-independent of where the boundary falls between samples: a pure order is reproduced
-to ~2e-6 and a pattern with harmonics up to 0.4 fs under +-3..4 % speed wander to
-~2e-5..3e-5 of its peak (measured, float64 and float32 input alike; the per-sample
-angle work and the grid are float32, block angles float64).  The sum is
-folded onto one revolution by spreading every weighted sample onto a fine angular
-grid (32 cells per output sample, linear weights) and one FFT of that grid gives all
-the ``c_k`` at once (a type-1 non-uniform FFT, Dutt & Rokhlin 1993).  The grid's
-linear kernel is divided out exactly (``sinc**2``); what remains is its aliasing: a
-component leaks images of relative size at most ``(k_image / G)**2 <= (1/64)**2 =
-2.4e-4`` (G = grid cells per revolution) in the worst case, when the sample positions repeat from revolution to
-revolution (constant speed with whole samples per revolution; measured 7e-5 for a
-pure order 5); with any speed wander the images spread out and vanish.
+independent of where the boundary falls between samples.  The sum is folded onto
+one revolution by spreading every weighted sample onto a fine angular grid (8 cells
+per output sample) with a cubic B-spline kernel, and one FFT of that grid gives all
+the ``c_k`` at once (a type-1 non-uniform FFT, Dutt & Rokhlin 1993; the kernel is
+applied through the moments sum(y mu^p), p = 0..3, of each sample's cell fraction
+mu).  The kernel is divided out exactly (``sinc**4``); what remains is its aliasing,
+at most ``(1/15)**4 + (1/17)**4 = 3e-5`` of a component's amplitude at the highest
+order, in the worst case where the sample positions repeat from revolution to
+revolution (constant speed with whole samples per revolution).  Measured: a pure
+order at constant speed to ~1e-6, and a pattern with harmonics up to 0.4 fs under
++-3..4 % speed wander to 4e-6..1.2e-5 of its peak (float32 and float64 input alike;
+the per-sample angle work and the grid are float32, block angles float64).
 
 Orders are kept up to the time-domain Nyquist frequency at the shaft's highest
 speed (and below ``samples_per_rev / 2``), so the average is free of angular
@@ -56,9 +56,10 @@ __all__ = [
     "tsa_comb_response",
 ]
 
-# Fine-grid cells per output sample for the spreading step, and the samples per block
+# Fine-grid cells per output sample for the spreading step (cubic B-spline kernel),
+# and the samples per block
 # of the cubic-Hermite evaluation of the shaft angle (see _Angles).
-_OVERSAMPLE = 32
+_OVERSAMPLE = 8
 _BLOCK = 32
 
 
@@ -312,7 +313,6 @@ class _Shaft:
         prof = ang.profile
         self.name, self.r, self.P = name, r, P
         self.G = G = _OVERSAMPLE * P
-        self.mask = G - 1 if (G & (G - 1)) == 0 else None
         # first and last angle with a full smooth edge inside the data, shaft revolutions
         t_first = (ang.i_lo + _EDGE_HALF + 1) / fs
         t_last = (ang.i_lo + ang.n - 2 - _EDGE_HALF) / fs
@@ -345,7 +345,10 @@ class _Shaft:
         step = float(np.max(np.diff(ang.block_theta))) * r * G
         self.tail = int(math.ceil(step)) + 3
         self.fast = G + self.tail < (1 << 24)          # cell numbers exact in float32
-        self.grid = np.zeros(G + self.tail, dtype=np.complex64)   # (sum y, sum y mu) per left cell
+        # moments of the cubic B-spline weights per left cell: (S0 + j S1), (S2 + j S3),
+        # S_p = sum y mu^p
+        self.grid = np.zeros(G + self.tail, dtype=np.complex64)
+        self.grid2 = np.zeros(G + self.tail, dtype=np.complex64)
         smin, smax = ang.speed_range(a / r, (a + N) / r)
         self.shaft_min_hz, self.shaft_max_hz = smin * r, smax * r
         k_nyq = int(math.floor(fs / (2.0 * self.shaft_max_hz) * (1 - 1e-9)))
@@ -354,7 +357,7 @@ class _Shaft:
             kmax = min(kmax, int(max_order))
         self.kmax = max(kmax, 0)
 
-    def spread_blocks(self, block_theta, delta, y, v, buf_g, buf_fl, buf_n, write_real: bool):
+    def spread_blocks(self, block_theta, delta, y, v, buf_g, buf_fl, buf_n, buf_w, write_real: bool):
         """Spread samples given as block angle (float64) + offsets (float32) with weights y.
 
         ``block_theta`` has shape (m,), ``delta``, ``y`` and the complex buffer ``v``
@@ -372,25 +375,30 @@ class _Shaft:
         fl = buf_fl[: m * _BLOCK].reshape(m, _BLOCK)
         np.floor(g, out=fl)                              # whole cells (g >= 0)
         g -= fl                                          # fractional part mu
-        # one complex accumulation: real part sum(y), imaginary part sum(y * mu) per left cell;
-        # the linear kernel puts y (1 - mu) on the left cell and y mu on the right one
+        # cubic B-spline spreading through the moments S0..S3 of mu per left cell (two complex
+        # accumulations); coefficients() turns them into the four kernel weights
         if write_real:
             v.real[...] = y
-        np.multiply(y, g, out=v.imag)
+        np.multiply(y, g, out=v.imag)                    # y mu
+        w = buf_w[: m * _BLOCK].reshape(m, _BLOCK)
+        np.multiply(v.imag, g, out=w.real)               # y mu^2
+        np.multiply(w.real, g, out=w.imag)               # y mu^3
         if self.fast:
             n = buf_n[: m * _BLOCK].reshape(m, _BLOCK)
             np.add(fl, base_cell.astype(np.float32), out=n, casting="unsafe")
         else:
             n = fl.astype(np.int64) + base_cell.astype(np.int64)
         np.add.at(self.grid, n.ravel(), v.ravel())
+        np.add.at(self.grid2, n.ravel(), w.ravel())
 
     def spread_exact(self, theta, y):
         """Spread a few samples with float64 angles ``theta`` (tach rev) and weights ``y``."""
         g = theta * (self.r * self.G)
         n = np.floor(g)
         mu = g - n
-        c0 = n.astype(np.int64) % self.G                 # cell G - 1 spills into the tail
+        c0 = n.astype(np.int64) % self.G
         np.add.at(self.grid, c0, (y + 1j * (y * mu)).astype(np.complex64))
+        np.add.at(self.grid2, c0, (y * mu * mu + 1j * (y * mu ** 3)).astype(np.complex64))
 
     def add_edges(self, xs, ang: _Angles):
         """Samples within _EDGE_HALF of a boundary, weighted by a smooth (erf) step."""
@@ -415,13 +423,21 @@ class _Shaft:
         import scipy.fft
 
         P, G = self.P, self.G
-        g0, g1 = self.grid.real, self.grid.imag
-        ext = g0 - g1
-        ext[1:] += g1[:-1]
-        ext[: self.tail] += ext[G:]                      # fold the tail back onto the revolution
-        spec = scipy.fft.rfft(ext[:G])[: P // 2 + 1].astype(np.complex128)
+        S0, S1 = self.grid.real.astype(np.float64), self.grid.imag.astype(np.float64)
+        S2, S3 = self.grid2.real.astype(np.float64), self.grid2.imag.astype(np.float64)
+        L = S0.size
+        ext = np.zeros(L + 3)                            # ext[c + 1] = weight sum of cell c
+        ext[0:L] += (S0 - 3 * S1 + 3 * S2 - S3) / 6      # cell n - 1
+        ext[1:L + 1] += (4 * S0 - 6 * S2 + 3 * S3) / 6   # cell n
+        ext[2:L + 2] += (S0 + 3 * S1 + 3 * S2 - 3 * S3) / 6   # cell n + 1
+        ext[3:L + 3] += S3 / 6                           # cell n + 2
+        folded = ext[1:G + 1].copy()                     # cells 0 .. G-1
+        folded[G - 1] += ext[0]                          # cell -1
+        tail = ext[G + 1:]                               # cells G .. G + tail + 1
+        folded[: tail.size] += tail
+        spec = scipy.fft.rfft(folded)[: P // 2 + 1]
         kk = np.arange(P // 2 + 1, dtype=np.float64)
-        coef = spec * (self.r / self.N) / np.sinc(kk / G) ** 2
+        coef = spec * (self.r / self.N) / np.sinc(kk / G) ** 4
         coef[self.kmax + 1:] = 0.0
         return coef
 
@@ -434,7 +450,7 @@ def _average_shafts(xs: np.ndarray, ang: _Angles, shafts: list[_Shaft]) -> None:
     C = _CHUNK_BLOCKS * _BLOCK
     delta, dtheta = np.empty(C, np.float32), np.empty(C, np.float32)
     buf_g, buf_fl, buf_y = np.empty(C, np.float32), np.empty(C, np.float32), np.empty(C, np.float32)
-    buf_v = np.empty(C, np.complex64)
+    buf_v, buf_w = np.empty(C, np.complex64), np.empty(C, np.complex64)
     buf_n = np.empty(C, dtype=np.int32)
     for j0 in range(j_lo, j_hi, _CHUNK_BLOCKS):
         j1 = min(j0 + _CHUNK_BLOCKS, j_hi)
@@ -454,10 +470,10 @@ def _average_shafts(xs: np.ndarray, ang: _Angles, shafts: list[_Shaft]) -> None:
                 flat = ys.reshape(-1)
                 flat[: max(s.k0 - c0, 0)] = 0.0
                 flat[max(s.k1 - c0, 0):] = 0.0
-                s.spread_blocks(th0, de, ys, v, buf_g, buf_fl, buf_n, True)
+                s.spread_blocks(th0, de, ys, v, buf_g, buf_fl, buf_n, buf_w, True)
                 real_holds_y = False
             else:
-                s.spread_blocks(th0, de, y, v, buf_g, buf_fl, buf_n, not real_holds_y)
+                s.spread_blocks(th0, de, y, v, buf_g, buf_fl, buf_n, buf_w, not real_holds_y)
                 real_holds_y = True
     for s in shafts:
         s.add_edges(xs, ang)
@@ -517,9 +533,8 @@ def tsa(x, fs, profile, *, shaft_order: float = 1.0, shaft: str = "", samples_pe
     Notes
     -----
     The average is computed as its Fourier series from the time samples, each
-    weighted by the angle it spans (trapezoid rule), folded onto one revolution with
-    a linear-kernel non-uniform FFT on 32 grid cells per output sample; see the module
-    docstring.  Noise that is not synchronous with the shaft falls as ``1/sqrt(N)``
+    weighted by the angle it spans, folded onto one revolution with a non-uniform FFT
+    (cubic B-spline kernel, 8 grid cells per output sample); see the module docstring.  Noise that is not synchronous with the shaft falls as ``1/sqrt(N)``
     and the comb response is :func:`tsa_comb_response`.
 
     References
