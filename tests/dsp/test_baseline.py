@@ -283,3 +283,24 @@ def test_different_gearbox_is_refused_naming_the_difference(demo):
     # a renamed mesh is the same gearbox
     renamed = dataclasses.replace(m, meshes=(dataclasses.replace(m.meshes[0], name="first stage"),))
     assert check_same_gearbox(m, renamed) == []
+
+
+def test_baseline_in_other_units_is_converted(tmp_path):
+    train = load_model(PAIR)
+    sim = simulate(train, rpm=1500.0, duration_s=3.0, fs=12800.0, seed=3)
+    path = tmp_path / "pair.flac"
+    model = write_simulation(sim, path, train)
+    recording = read_recording(path)
+    in_g = analyze(recording, model, Settings())
+    s = model.sensors[0]
+    # the same file read as m/s2: 1 g = 9.80665 m/s2 (exact, 3rd CGPM 1901; domain reference section 8)
+    in_si = dataclasses.replace(model, sensors=(dataclasses.replace(s, units="m/s2", scale=s.scale * 9.80665),))
+    base = analyze(recording, in_si, Settings())
+    cmp = compare(in_g, base)
+    assert any("converted" in n for n in cmp.notes)
+    for name, shaft in (("rms", None), ("rms", "input"), ("rms", "output"), ("kurtosis", None)):
+        assert cmp.indicator(name, shaft).change_ratio == pytest.approx(1.0, rel=1e-5)
+    assert cmp.grown == ()
+    near = np.abs(cmp.order - 40.0) < 0.01   # the mesh line at order 40 (40 T input gear)
+    np.testing.assert_allclose(np.nanmax(cmp.baseline_order_amplitude[near]),
+                               np.max(np.asarray(in_g.order_spectrum.amplitude)[near]), rtol=1e-5)
