@@ -227,9 +227,9 @@ _CHUNK_BLOCKS = 4096       # blocks of _BLOCK samples processed at once (cache-s
 class _Angles:
     """Tach-shaft angle at the time samples, from the profile evaluated once per block.
 
-    The profile is evaluated every ``_BLOCK`` samples (angle and speed) and a cubic
-    Hermite polynomial fills the samples in between, together with its derivative
-    (the angle each sample spans).  For a C1 profile (PCHIP through tach pulses) the
+    The profile is evaluated every ``_BLOCK`` samples (angle and speed); a cubic
+    Hermite polynomial fills the angles in between, and the angle each sample spans
+    is the speed (linear within the block) divided by fs.  For a C1 profile (PCHIP through tach pulses) the
     error is of order h^2 |jump of the 2nd derivative| / 50 in blocks that hold a
     knot, h = _BLOCK / fs: ~1e-8 rev at ordinary accelerations.  Sample ``i`` of the
     signal is at time ``i / fs``.
@@ -263,9 +263,7 @@ class _Angles:
         s = np.arange(_BLOCK, dtype=np.float64) / _BLOCK
         s2, s3 = s * s, s * s * s
         self._h = (2 * s3 - 3 * s2 + 1, s3 - 2 * s2 + s, -2 * s3 + 3 * s2, s3 - s2)
-        self._dh = tuple(d / _BLOCK for d in (6 * s2 - 6 * s, 3 * s2 - 4 * s + 1, -6 * s2 + 6 * s, 3 * s2 - 2 * s))
         self._h32 = tuple(h.astype(np.float32) for h in self._h)
-        self._dh32 = tuple(h.astype(np.float32) for h in self._dh)
         self._om32 = self._om.astype(np.float32)
         self._s32 = s.astype(np.float32)
 
@@ -281,8 +279,7 @@ class _Angles:
         step = (self.block_theta[j0 + 1:j1 + 1] - self.block_theta[j0:j1]).astype(np.float32)[:, None]
         om0 = self._om32[j0:j1, None]
         om1 = self._om32[j0 + 1:j1 + 1, None]
-        h00, h10, h01, h11 = self._h32
-        d00, d10, d01, d11 = self._dh32
+        _, h10, h01, h11 = self._h32                       # h00 + h01 = 1: angle from the block start
         de = delta[: m * _BLOCK].reshape(m, _BLOCK)
         tmp = dtheta[: m * _BLOCK].reshape(m, _BLOCK)
         np.multiply(step, h01, out=de)
