@@ -703,6 +703,8 @@ class CursorReadout(QWidget):
         self.peak_label.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
         self.summary = QLabel("")
         self.summary.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        for label in (self.peak_label, self.summary):
+            label.setWordWrap(True)   # long explanations wrap instead of widening the window
         self.table = QTableWidget(0, len(self.COLUMNS))
         self.table.setHorizontalHeaderLabels(list(self.COLUMNS))
         self.table.verticalHeader().setVisible(False)
@@ -778,11 +780,15 @@ class CursorTools(QWidget):
                  parent: QWidget | None = None):
         from PySide6.QtWidgets import QHBoxLayout, QPushButton
 
+        from PySide6.QtWidgets import QSizePolicy
+
         super().__init__(parent)
         self.cursor_set = cursor_set
         self.overlay = overlay
         self.session = session
         self.history = history
+        # the row never widens the window: on a narrow window its end is cut off
+        self.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Fixed)
         layout = QHBoxLayout(self)
         layout.setContentsMargins(0, 0, 0, 0)
         layout.setSpacing(6)
@@ -796,7 +802,7 @@ class CursorTools(QWidget):
             ("snap_spacing", "Snap spacing", "Set the sideband spacing to the nearest shaft rate",
              self._snap_spacing),
             ("snap_centre", "Carrier to peak", "Move the sideband carrier onto the nearest peak", self._snap_centre),
-            ("clear", "Clear cursors", "Remove the cursors of this plot", lambda: cursor_set.clear()),
+            ("clear", "Clear", "Remove the cursors of this plot", lambda: cursor_set.clear()),
         ):
             button = QPushButton(text)
             button.setToolTip(tip)

@@ -35,7 +35,8 @@ from dataclasses import dataclass
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import QObject, Qt, Signal
-from PySide6.QtWidgets import QCheckBox, QHBoxLayout, QLabel, QWidget
+from PySide6.QtGui import QAction
+from PySide6.QtWidgets import QHBoxLayout, QLabel, QMenu, QToolButton, QWidget
 
 from dsp.explain import ModelLine, axis_scale, model_lines
 from workbench import theme
@@ -309,7 +310,10 @@ def _clear(items: _Items) -> None:
 
 
 class OverlayLegend(QWidget):
-    """Family switches and the shaft colour legend of one :class:`ModelOverlay`."""
+    """Family switches (a compact menu) and the shaft colour legend of one :class:`ModelOverlay`.
+
+    ``boxes`` maps each family name to its checkable action.
+    """
 
     def __init__(self, overlay: ModelOverlay, parent: QWidget | None = None):
         super().__init__(parent)
@@ -317,14 +321,20 @@ class OverlayLegend(QWidget):
         layout = QHBoxLayout(self)
         layout.setContentsMargins(0, 0, 0, 0)
         layout.setSpacing(6)
-        layout.addWidget(QLabel("model lines:"))
-        self.boxes: dict[str, QCheckBox] = {}
+        self.menu_button = QToolButton()
+        self.menu_button.setText("Model lines")
+        self.menu_button.setToolTip("Choose which model frequency families are drawn")
+        self.menu_button.setPopupMode(QToolButton.ToolButtonPopupMode.InstantPopup)
+        menu = QMenu(self.menu_button)
+        self.boxes: dict[str, QAction] = {}
         for name in FAMILIES:
-            box = QCheckBox(name)
-            box.setChecked(overlay.family_visible(name))
-            box.toggled.connect(lambda on, n=name: overlay.set_family_visible(n, on))
-            layout.addWidget(box)
-            self.boxes[name] = box
+            action = menu.addAction(name)
+            action.setCheckable(True)
+            action.setChecked(overlay.family_visible(name))
+            action.toggled.connect(lambda on, n=name: overlay.set_family_visible(n, on))
+            self.boxes[name] = action
+        self.menu_button.setMenu(menu)
+        layout.addWidget(self.menu_button)
         self._shaft_row = QHBoxLayout()
         self._shaft_row.setSpacing(6)
         layout.addLayout(self._shaft_row)
@@ -340,6 +350,8 @@ class OverlayLegend(QWidget):
                 box.blockSignals(True)
                 box.setChecked(self.overlay.family_visible(name))
                 box.blockSignals(False)
+        shown = [n for n in FAMILIES if self.overlay.family_visible(n)]
+        self.menu_button.setText(f"Model lines ({len(shown)} of {len(FAMILIES)})")
         entries = self.overlay.legend_entries()
         if [label.property("shaft") for label in self.shaft_labels] == [n for n, _ in entries]:
             return
@@ -348,7 +360,7 @@ class OverlayLegend(QWidget):
             label.deleteLater()
         self.shaft_labels = []
         for name, colour in entries:
-            label = QLabel(f'<span style="color:{colour}">&#9632;</span> {name} shaft')
+            label = QLabel(f'<span style="color:{colour}">&#9632;</span> {name}')
             label.setProperty("shaft", name)
             label.setToolTip(f"lines in this colour belong to the {name} shaft "
                              "(its rate, the sidebands it spaces, its bearings)")

@@ -115,7 +115,9 @@ def test_family_switches(plot, train, qtbot):
     overlay.set_family_visible("bearings", True)
     assert legend.boxes["bearings"].isChecked()
     assert [label.property("shaft") for label in legend.shaft_labels] == ["input", "output"]
-    assert "output shaft" in legend.shaft_labels[1].text()
+    assert "output" in legend.shaft_labels[1].text()
+    assert theme.SHAFT_COLOURS[1] in legend.shaft_labels[1].text()  # the swatch has the shaft's colour
+    assert legend.menu_button.text() == "Model lines (2 of 5)"  # mesh harmonics and bearings
     with pytest.raises(ValueError, match="Invalid value for 'family'"):
         overlay.set_family_visible("gears", True)
 
