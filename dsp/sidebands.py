@@ -27,7 +27,8 @@ The measurement, per mesh harmonic and per candidate shaft:
    ``clear_db`` above the floor rising to 1 at 40 dB more.  A position that
    coincides with a line of another candidate's family (or another mesh
    harmonic) goes to the family that reaches it with the lower sideband order,
-   because sidebands fall with their order; equal orders share it.
+   because sidebands fall with their order; equal orders share it.  Lines of
+   an expected family (planet passing in a planetary stage) always stay with it.
    The score is the mean over the ``2 * n_sideband_orders`` positions.
    Cepstral support (rahmonic strength at the shaft period) breaks near ties.
 
@@ -337,9 +338,11 @@ def measure_sidebands(
                         continue
                     o_tol = min(tolerance(c_order + K * osp), osp / 3.0)
                     n_other = int(math.ceil((K + 0.5) * sp / osp)) + 1
+                    # lines of the expected (healthy) family belong to it whatever their order
+                    k_of = (lambda kk: 0) if other == carrier.expected_owner else (lambda kk: kk)
                     for kk in range(1, n_other + 1):
-                        foreign.append((c_order - kk * osp, o_tol, kk))
-                        foreign.append((c_order + kk * osp, o_tol, kk))
+                        foreign.append((c_order - kk * osp, o_tol, k_of(kk)))
+                        foreign.append((c_order + kk * osp, o_tol, k_of(kk)))
                 a = np.empty((2, K))
                 total = 0.0
                 count = 0

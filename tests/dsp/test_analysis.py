@@ -125,6 +125,21 @@ def test_healthy_gearbox_has_no_suspect(healthy):
         assert 2.0 < t.indicators["fm4"] < 5.0
 
 
+def test_healthy_planetary_stage_has_no_suspect():
+    # Z_r = N_p Z_s: the sun's rate relative to the carrier equals the planet-pass frequency,
+    # whose sidebands every healthy planetary stage shows (McFadden & Smith 1985)
+    from dsp.model import Planetary
+
+    model = GearTrain(name="planetary", sensors=(Sensor("acc", 0, 9.80665, "m/s2"),),
+                      tach=Tach(shaft="sun", channel=1), shafts=(Shaft("sun"), Shaft("carrier")),
+                      planetary=(Planetary("p1", "sun", 20, 30, 4, 80, "carrier"),))
+    a = run(model, seed=2)
+    assert a.suspects == ()  # simulator truth: healthy
+    fam = next(f for f in a.sidebands if f.harmonic == 1)
+    assert fam.owner_shaft == "carrier" and fam.expected
+    assert a.overall["velocity_rms_mm_s"] > 0  # m/s2 units integrate too
+
+
 def owner_of(a: Analysis, mesh: str, harmonic: int = 1) -> str | None:
     return next(f.owner_shaft for f in a.sidebands if f.mesh == mesh and f.harmonic == harmonic)
 
