@@ -124,3 +124,19 @@ def test_outer_race_on_intermediate_nde(results):
     lo, hi = a.envelope.band_hz
     assert a.envelope.band_source == "kurtogram" and lo > 3 * 569.25
     assert len(a.suspects) == 1
+
+
+def test_speed_variation_without_the_tach():
+    # README 06 with the tach channel ignored: the speed comes from the stage 1 mesh phase
+    # (Bonnardot et al. 2005) and the broken tooth of the intermediate wheel is still found
+    import dataclasses
+
+    path = DEMO / "06_speed_variation.flac"
+    if not path.exists():
+        pytest.skip("06_speed_variation.flac is not in this checkout")
+    model = load_model(path.with_suffix(".toml"))
+    model = dataclasses.replace(model, tach=dataclasses.replace(model.tach, channel=None, nominal_rpm=RPM))
+    a = analyze(read_recording(path), model)
+    assert a.speed.source == "estimated"
+    assert (a.speed.max_hz - a.speed.min_hz) / a.speed.mean_hz == pytest.approx(0.16, abs=0.05)  # README 06: +-8 %
+    assert (a.suspects[0].component, a.suspects[0].kind) == ("shaft:intermediate", "localized tooth damage")
