@@ -268,7 +268,7 @@ def make_view(recipe: dict[str, Any], analysis: Any, recording: Any = None):
     import importlib
 
     from PySide6.QtCore import Qt
-    from PySide6.QtWidgets import QApplication
+    from PySide6.QtWidgets import QApplication, QLayout
 
     app = QApplication.instance()
     name = recipe["view"]["name"]
@@ -278,6 +278,9 @@ def make_view(recipe: dict[str, Any], analysis: Any, recording: Any = None):
     view = cls(session)
     view.setAttribute(Qt.WidgetAttribute.WA_DontShowOnScreen, True)
     width, height = recipe["view"]["size_px"]
+    # the size of the recipe even below the control row's minimum (the controls are not drawn)
+    view.layout().setSizeConstraint(QLayout.SizeConstraint.SetNoConstraint)
+    view.setMinimumSize(0, 0)
     view.resize(int(width), int(height))
     view.show()
     view.show_analysis(analysis, recording)
