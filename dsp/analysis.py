@@ -567,54 +567,15 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
     .. [2] R. B. Randall, J. Antoni, "Rolling element bearing diagnostics - A
        tutorial", Mech. Syst. Signal Process. 25 (2011) 485-520.
     """
-    from .errors import AnalysisError
     from .kinematics import frequency_table, shaft_orders
-    from .recording import sensor_signal, signal_quality
-    from .spectrum import band_rms, rfft_full, spectrum_from_rfft, velocity_spectrum, zoom_spectrum
+    from .sidebands import measure_sidebands
+    from .suspects import rank_suspects, score_components
 
     step = _Steps(progress, cancel)
     warn: list[str] = []
     step(0.0, "reading the sensor signal")
-    if not isinstance(settings, Settings):
-        raise AnalysisError(f"settings must be dsp.analysis.Settings, got {type(settings).__name__}")
-    if not model.sensors:
-        raise AnalysisError("the model has no sensor; add a [[sensors]] block naming the accelerometer channel")
-    if not 0 <= settings.sensor_index < len(model.sensors):
-        raise AnalysisError(
-            f"sensor index {settings.sensor_index} does not exist; the model has {len(model.sensors)} "
-            f"sensor(s) (0 to {len(model.sensors) - 1})"
-        )
-    sensor = model.sensors[settings.sensor_index]
-    fs = float(recording.sample_rate_hz)
-    i0, i1 = _time_range(settings, recording.n_frames, fs)
-    x = sensor_signal(recording, sensor)[i0:i1]
+    sensor, fs, i0, i1, x, quality = _signal(recording, model, settings, warn)
 
-    # --- signal quality ---------------------------------------------------
-    quality = signal_quality(x)
-    if quality.n_nonfinite:
-        frac = quality.n_nonfinite / x.size
-        if frac > MAX_NONFINITE_FRACTION:
-            raise AnalysisError(
-                f"{quality.n_nonfinite} of {x.size} samples of sensor {sensor.name!r} are NaN or infinite "
-                f"({100 * frac:.1f} %); repair the file or analyse a time range without them"
-            )
-        x = np.where(np.isfinite(x), x, np.float32(0)).astype(np.float32)
-        warn.append(
-            f"{quality.n_nonfinite} samples of sensor {sensor.name!r} are NaN or infinite; they were set to 0 "
-            "for this analysis, and results near them are unreliable."
-        )
-    if quality.flat:
-        raise AnalysisError(
-            f"sensor {sensor.name!r} (channel {sensor.channel}) is flat over the range analysed; "
-            "check the channel number and the sensor cable"
-        )
-    if quality.clipped:
-        warn.append(
-            f"clipping invalidates kurtosis, crest factor and FM4: {100 * quality.clipped_fraction:.2f} % of the "
-            f"samples of sensor {sensor.name!r} sit at the rail; re-record with a larger range if you can."
-        )
-
-    # --- speed ------------------------------------------------------------
     step(0.05, "speed of the reference shaft")
     reference = model.tach.shaft or model.shafts[0].name
     profile, pulses = _speed(recording, model, x, i0, i1, fs, reference, warn)
@@ -627,134 +588,46 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
         )
     table = frequency_table(model, float(profile.mean_hz), reference)
     orders = {k: abs(float(v)) for k, v in shaft_orders(model, reference).items()}
+    _nyquist_warnings(table, fs, spread, settings, warn)
 
-    # Nyquist check for the mesh harmonics asked for
-    nyq = fs / 2.0
-    top = [(m.name, m.gmf_hz) for m in table.meshes] + [(p.name, p.mesh_hz) for p in table.planetary]
-    for name, gmf in top:
-        h_max = int(nyq // (gmf * (1 + spread / 2))) if gmf > 0 else settings.n_mesh_harmonics
-        if h_max < settings.n_mesh_harmonics:
-            warn.append(
-                f"sample rate too low for the mesh harmonics asked for: {fs:g} Hz reaches harmonic {h_max} of "
-                f"{name} ({gmf:.1f} Hz), not {settings.n_mesh_harmonics}; record faster or ask for fewer harmonics."
-            )
-
-    # --- one full rfft ----------------------------------------------------
     step(0.12, "spectrum")
-    full = rfft_full(x, fs)
-    spectrum = spectrum_from_rfft(full, window=settings.window, scaling=settings.spectrum_scaling, units=sensor.units)
-    vel = velocity_spectrum(spectrum, units=sensor.units if sensor.units in ("g", "m/s2") else "g",
-                            cutoff_hz=max(2.0, 0.5 * settings.velocity_band_hz[0]))
-    lo, hi = settings.velocity_band_hz
-    velocity_rms = band_rms(vel, lo, min(hi, nyq))
-    overall = _overall(x, velocity_rms, quality)
-    zoom = None
-    if top:
-        name, gmf = top[0]
-        span = max(8 * max(table.shafts[i].hz for i in range(len(table.shafts))), 20 * full.resolution_hz)
-        if gmf < nyq:
-            zoom = zoom_spectrum(full, None, gmf, span, window=settings.window, scaling=settings.spectrum_scaling,
-                                 units=sensor.units)
-
-    # --- low band of the shared rfft (order spectrum, cepstrum) -------------
-    max_gmf_order = max([m.gmf_order for m in table.meshes] + [p.mesh_hz / table.reference_hz for p in table.planetary]
-                        + [1.0])
-    max_order = settings.max_order
-    if max_order is None:
-        max_order = (settings.n_mesh_harmonics + 0.5) * max_gmf_order
-    max_order = float(min(max_order, 0.45 * fs / profile.max_hz))
+    full, spectrum, vel, overall, zoom = _spectra(x, fs, sensor, settings, table, quality)
+    max_order = _max_order(table, settings, fs, profile)
     low = _low_band(full, 1.3 * max_order * profile.max_hz)
     low_full, lx, lfs = (low[0], low[1], low[0].fs) if low is not None else (full, x, fs)
     del low
     max_order = float(min(max_order, 0.45 * lfs / profile.max_hz))
 
-    # --- envelope ---------------------------------------------------------
     step(0.2, "envelope")
-    from .envelope import envelope_spectrum, fast_kurtogram
-
-    kurt = None
-    if settings.envelope_band_hz is not None:
-        band = tuple(float(v) for v in settings.envelope_band_hz)
-        band_source = "user"
-    else:
-        kurt = fast_kurtogram(x, fs, max_level=settings.kurtogram_max_level)
-        band = _choose_band(kurt, table, settings, nyq, warn)
-        band_source = "kurtogram"
-    env = envelope_spectrum(full, fs, band, band_source=band_source)
-    env_order_tracked = None
-    if spread > ENVELOPE_ORDER_TRACK_SPREAD and profile.n_revs >= MIN_TSA_REVS:
-        env_order_tracked = _order_tracked_envelope(full, band, profile, band_source)
-        warn.append(
-            f"the speed varied by {100 * spread:.0f} %: bearing and shaft families were searched in the "
-            "order-tracked squared-envelope spectrum (Hz at the mean speed)."
-        )
-    from .suspects import match_envelope, rank_suspects, score_components
-
-    env_for_matches = env_order_tracked if env_order_tracked is not None else env
-    matches = match_envelope(env_for_matches.freq_hz, env_for_matches.amplitude, _envelope_targets(table))
-
+    env, env_tracked, kurt, matches = _envelope_step(x, full, fs, table, settings, profile, spread, warn)
     # the cepstrum of the low band (mesh harmonics and their sidebands) from the shared rfft
-    from .cepstrum import cepstrum_from_rfft, rahmonic_strength
+    from .cepstrum import cepstrum_from_rfft
 
     ceps = cepstrum_from_rfft(low_full)
     del full, low_full  # everything that needs the full-length rfft has it now
 
-    # --- order spectrum (on the low band) -----------------------------------
     step(0.3, "order spectrum")
     from .orders import order_spectrum
 
     ospec = order_spectrum(lx, lfs, profile, max_order=max_order, window="hann")
     del lx
 
-    # --- TSA per shaft (full band: impacts ring at high frequencies) ---------
-    from .tsa import tsa_shafts
+    tsas = _tsa_step(x, fs, profile, orders, table, model, settings, warn, step)
 
-    tsas: list[ShaftTSA] = []
-    eligible: dict[str, float] = {}
-    for name in [s.name for s in model.shafts]:
-        revs_in_range = profile.n_revs * orders[name]
-        if revs_in_range < MIN_TSA_REVS:
-            warn.append(
-                f"short record: shaft {name} turns {revs_in_range:.1f} times in the range analysed, fewer than "
-                f"{MIN_TSA_REVS}; its TSA is skipped (analyse a longer record)."
-            )
-            continue
-        eligible[name] = orders[name]
-    if eligible:
-        step(0.45, "TSA of shafts " + ", ".join(eligible))
-        results = tsa_shafts(x, fs, profile, eligible, samples_per_rev=settings.tsa_samples_per_rev)
-        for k, (name, res) in enumerate(zip(eligible, results)):
-            step(0.65 + 0.1 * k / len(eligible), f"TSA indicators of shaft {name}")
-            tsas.append(_derived(res, name, table, model, settings))
-
-    # --- cepstrum ---------------------------------------------------------
     step(0.8, "cepstrum rahmonics")
-    from .errors import GearbenchError
+    ceps_prominence, ceps_support = _cepstrum_support(ceps, table)
+    support = {k: v for k, v in ceps_support.items() if np.isfinite(v)}
 
-    ceps_support = {}
-    ceps_prominence = {}
-    for s in table.shafts:
-        try:
-            prom = float(rahmonic_strength(ceps, s.hz).prominence)
-        except GearbenchError:  # the rahmonics lie beyond the cepstrum: no support either way
-            prom = float("nan")
-        ceps_prominence[s.name] = prom
-        ceps_support[s.name] = _ramp(prom, *CEPSTRUM_PROMINENCE_RAMP) if math.isfinite(prom) else float("nan")
-
-    # --- sidebands and suspects ---------------------------------------------
     step(0.87, "sideband families")
-    from .sidebands import measure_sidebands
-
     rel_err = 0.0 if profile.source == "tach" else (0.005 if profile.source == "estimated" else 0.02)
     fams = measure_sidebands(
         np.asarray(ospec.order), np.asarray(ospec.amplitude), _carriers(table, model),
         reference_hz=table.reference_hz, n_mesh_harmonics=settings.n_mesh_harmonics,
         n_sideband_orders=settings.n_sideband_orders, relative_speed_error=rel_err,
-        tsa_std={t.shaft: t.indicators.get("rms", math.nan) for t in tsas},
-        cepstrum_support={k: v for k, v in ceps_support.items() if np.isfinite(v)},
+        tsa_std={t.shaft: t.indicators.get("rms", math.nan) for t in tsas}, cepstrum_support=support,
     )
+
     step(0.95, "suspects")
-    support = {k: v for k, v in ceps_support.items() if np.isfinite(v)}
     suspects = rank_suspects(tsas, fams, matches, threshold=settings.alarm_threshold, cepstrum_support=support)
     all_scores = score_components(tsas, fams, matches, cepstrum_support=support)
     step(1.0, "done")
@@ -795,9 +668,166 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
             "cepstrum_prominence": ceps_prominence,
             "all_scores": all_scores,
             "speed_spread": spread,
-            "envelope_order_tracked": env_order_tracked,
+            "envelope_order_tracked": env_tracked,
         },
     )
+
+
+# ---------------------------------------------------------------------------
+# the steps of analyze
+
+
+def _signal(recording, model, settings: Settings, warn: list[str]):
+    """The sensor, the time range and the sensor signal, with its quality checked."""
+    from .errors import AnalysisError
+    from .recording import sensor_signal, signal_quality
+
+    if not isinstance(settings, Settings):
+        raise AnalysisError(f"settings must be dsp.analysis.Settings, got {type(settings).__name__}")
+    if not model.sensors:
+        raise AnalysisError("the model has no sensor; add a [[sensors]] block naming the accelerometer channel")
+    if not 0 <= settings.sensor_index < len(model.sensors):
+        raise AnalysisError(
+            f"sensor index {settings.sensor_index} does not exist; the model has {len(model.sensors)} "
+            f"sensor(s) (0 to {len(model.sensors) - 1})"
+        )
+    sensor = model.sensors[settings.sensor_index]
+    fs = float(recording.sample_rate_hz)
+    i0, i1 = _time_range(settings, recording.n_frames, fs)
+    x = sensor_signal(recording, sensor)[i0:i1]
+    quality = signal_quality(x)
+    if quality.n_nonfinite:
+        frac = quality.n_nonfinite / x.size
+        if frac > MAX_NONFINITE_FRACTION:
+            raise AnalysisError(
+                f"{quality.n_nonfinite} of {x.size} samples of sensor {sensor.name!r} are NaN or infinite "
+                f"({100 * frac:.1f} %); repair the file or analyse a time range without them"
+            )
+        x = np.where(np.isfinite(x), x, np.float32(0)).astype(np.float32)
+        warn.append(
+            f"{quality.n_nonfinite} samples of sensor {sensor.name!r} are NaN or infinite; they were set to 0 "
+            "for this analysis, and results near them are unreliable."
+        )
+    if quality.flat:
+        raise AnalysisError(
+            f"sensor {sensor.name!r} (channel {sensor.channel}) is flat over the range analysed; "
+            "check the channel number and the sensor cable"
+        )
+    if quality.clipped:
+        warn.append(
+            f"clipping invalidates kurtosis, crest factor and FM4: {100 * quality.clipped_fraction:.2f} % of the "
+            f"samples of sensor {sensor.name!r} sit at the rail; re-record with a larger range if you can."
+        )
+    return sensor, fs, i0, i1, x, quality
+
+
+def _nyquist_warnings(table, fs: float, spread: float, settings: Settings, warn: list[str]) -> None:
+    nyq = fs / 2.0
+    top = [(m.name, m.gmf_hz) for m in table.meshes] + [(p.name, p.mesh_hz) for p in table.planetary]
+    for name, gmf in top:
+        h_max = int(nyq // (gmf * (1 + spread / 2))) if gmf > 0 else settings.n_mesh_harmonics
+        if h_max < settings.n_mesh_harmonics:
+            warn.append(
+                f"sample rate too low for the mesh harmonics asked for: {fs:g} Hz reaches harmonic {h_max} of "
+                f"{name} ({gmf:.1f} Hz), not {settings.n_mesh_harmonics}; record faster or ask for fewer harmonics."
+            )
+
+
+def _spectra(x, fs: float, sensor, settings: Settings, table, quality):
+    """The one full rfft and what it gives: Hz and velocity spectra, overall levels, zoom."""
+    from .spectrum import band_rms, rfft_full, spectrum_from_rfft, velocity_spectrum, zoom_spectrum
+
+    nyq = fs / 2.0
+    full = rfft_full(x, fs)
+    spectrum = spectrum_from_rfft(full, window=settings.window, scaling=settings.spectrum_scaling, units=sensor.units)
+    vel = velocity_spectrum(spectrum, units=sensor.units if sensor.units in ("g", "m/s2") else "g",
+                            cutoff_hz=max(2.0, 0.5 * settings.velocity_band_hz[0]))
+    lo, hi = settings.velocity_band_hz
+    overall = _overall(x, band_rms(vel, lo, min(hi, nyq)), quality)
+    zoom = None
+    top = [m.gmf_hz for m in table.meshes] + [p.mesh_hz for p in table.planetary]
+    if top and top[0] < nyq:
+        span = max(8 * max(s.hz for s in table.shafts), 20 * full.resolution_hz)
+        zoom = zoom_spectrum(full, None, top[0], span, window=settings.window, scaling=settings.spectrum_scaling,
+                             units=sensor.units)
+    return full, spectrum, vel, overall, zoom
+
+
+def _max_order(table, settings: Settings, fs: float, profile) -> float:
+    """Highest order of the order spectrum: the mesh harmonics asked for, below Nyquist."""
+    max_gmf_order = max([m.gmf_order for m in table.meshes] + [p.mesh_hz / table.reference_hz for p in table.planetary]
+                        + [1.0])
+    max_order = settings.max_order
+    if max_order is None:
+        max_order = (settings.n_mesh_harmonics + 0.5) * max_gmf_order
+    return float(min(max_order, 0.45 * fs / profile.max_hz))
+
+
+def _envelope_step(x, full, fs: float, table, settings: Settings, profile, spread: float, warn: list[str]):
+    """Envelope band (kurtogram or user), squared-envelope spectrum and the family matches."""
+    from .envelope import envelope_spectrum, fast_kurtogram
+    from .suspects import match_envelope
+
+    kurt = None
+    if settings.envelope_band_hz is not None:
+        band = tuple(float(v) for v in settings.envelope_band_hz)
+        band_source = "user"
+    else:
+        kurt = fast_kurtogram(x, fs, max_level=settings.kurtogram_max_level)
+        band = _choose_band(kurt, table, settings, fs / 2.0, warn)
+        band_source = "kurtogram"
+    env = envelope_spectrum(full, fs, band, band_source=band_source)
+    tracked = None
+    if spread > ENVELOPE_ORDER_TRACK_SPREAD and profile.n_revs >= MIN_TSA_REVS:
+        tracked = _order_tracked_envelope(full, band, profile, band_source)
+        warn.append(
+            f"the speed varied by {100 * spread:.0f} %: bearing and shaft families were searched in the "
+            "order-tracked squared-envelope spectrum (Hz at the mean speed)."
+        )
+    searched = tracked if tracked is not None else env
+    matches = match_envelope(searched.freq_hz, searched.amplitude, _envelope_targets(table))
+    return env, tracked, kurt, matches
+
+
+def _tsa_step(x, fs: float, profile, orders, table, model, settings: Settings, warn: list[str], step) -> list[ShaftTSA]:
+    """TSA of every shaft that turns at least MIN_TSA_REVS times (full band: impacts ring high)."""
+    from .tsa import tsa_shafts
+
+    eligible: dict[str, float] = {}
+    for name in [s.name for s in model.shafts]:
+        revs_in_range = profile.n_revs * orders[name]
+        if revs_in_range < MIN_TSA_REVS:
+            warn.append(
+                f"short record: shaft {name} turns {revs_in_range:.1f} times in the range analysed, fewer than "
+                f"{MIN_TSA_REVS}; its TSA is skipped (analyse a longer record)."
+            )
+            continue
+        eligible[name] = orders[name]
+    tsas: list[ShaftTSA] = []
+    if eligible:
+        step(0.45, "TSA of shafts " + ", ".join(eligible))
+        results = tsa_shafts(x, fs, profile, eligible, samples_per_rev=settings.tsa_samples_per_rev)
+        for k, (name, res) in enumerate(zip(eligible, results)):
+            step(0.65 + 0.1 * k / len(eligible), f"TSA indicators of shaft {name}")
+            tsas.append(_derived(res, name, table, model, settings))
+    return tsas
+
+
+def _cepstrum_support(ceps, table) -> tuple[dict[str, float], dict[str, float]]:
+    """Rahmonic prominence at each shaft's period and the support (0..1) it gives."""
+    from .cepstrum import rahmonic_strength
+    from .errors import GearbenchError
+
+    prominence: dict[str, float] = {}
+    support: dict[str, float] = {}
+    for s in table.shafts:
+        try:
+            prom = float(rahmonic_strength(ceps, s.hz).prominence)
+        except GearbenchError:  # the rahmonics lie beyond the cepstrum: no support either way
+            prom = float("nan")
+        prominence[s.name] = prom
+        support[s.name] = _ramp(prom, *CEPSTRUM_PROMINENCE_RAMP) if math.isfinite(prom) else float("nan")
+    return prominence, support
 
 
 # ---------------------------------------------------------------------------
