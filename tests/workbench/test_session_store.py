@@ -183,3 +183,86 @@ def test_crash_after_an_edit_is_recovered_from_the_autosave(tmp_path):
     recovered = load_session(candidate).session
     assert [a["id"] for a in recovered.annotations] == ["a1", "after-crash"]
     assert recovered.annotations[1]["text"] == "GMF of the pair, edited before the crash"
+
+
+# ---------------------------------------------------------------------- the window's document actions
+def _simulated(tmp_path: Path) -> Path:
+    from dsp.model import GearTrain, Mesh, Sensor, Shaft, Tach
+    from dsp.synth import Fault, simulate, write_simulation
+
+    train = GearTrain(name="window pair", sensors=(Sensor("case", 0, 5.0, "g", "output bearing", "radial"),),
+                      tach=Tach(shaft="in", channel=1, nominal_rpm=1200.0), shafts=(Shaft("in"), Shaft("out")),
+                      meshes=(Mesh("pair", "in", 19, "out", 47),))
+    sim = simulate(train, rpm=1200, duration_s=3.0, fs=8000, seed=5, faults=[Fault("tooth", "out", tooth=2)])
+    path = tmp_path / "pair.flac"
+    write_simulation(sim, path, train)
+    return path
+
+
+def _window(qtbot, tmp_path, name):
+    from PySide6.QtCore import QSettings
+
+    from workbench import theme
+    from workbench.main_window import MainWindow
+
+    theme.configure_pyqtgraph()
+    window = MainWindow(settings_store=QSettings(str(tmp_path / f"{name}.ini"), QSettings.Format.IniFormat))
+    qtbot.addWidget(window)
+    window.document.app_data_dir = tmp_path / "appdata"
+    window.resize(1300, 850)
+    window.show()
+    return window
+
+
+def test_window_saves_reopens_and_recovers_a_session(qtbot, tmp_path):
+    import dataclasses
+
+    recording = _simulated(tmp_path)
+    first = _window(qtbot, tmp_path, "first")
+    with qtbot.waitSignal(first.analysis_shown, timeout=60_000):
+        first.open_recording(recording)
+    doc = first.document
+    assert [a.text().replace("&", "") for a in first.menuBar().actions()][:2] == ["File", "Edit"]
+    note = doc.annotations.add("spectrum", "note", 380.0, 0.05, "pair GMF", x_units="hz", y_units="g")
+    edited = dataclasses.replace(first.session.model, name="window pair, edited")
+    first.form.model_changed.emit(edited)                 # an edit in the model form
+    assert first.session.model.name == "window pair, edited"
+    doc.undo_action.trigger()                             # Edit > Undo
+    assert first.session.model.name == "window pair" and first.form.model().name == "window pair"
+    doc.redo_action.trigger()
+    assert first.session.model.name == "window pair, edited"
+    entry = doc.snapshot("spectrum with the GMF note")
+    assert Path(entry["png"]).is_file() and doc.gallery.captions() == ["spectrum with the GMF note"]
+    doc.findings.edit.setPlainText("Local damage on the output gear; re-measure in two weeks.")
+    path = doc.save_session(tmp_path / "job.json")
+    assert load_session(path).session.findings.startswith("Local damage")
+
+    # more work, autosaved, then the program dies without saving
+    doc.annotations.add("tsa", "arrow", 15.3, 0.2, "tooth 2", x_units="deg", y_units="g")
+    written = doc.autosaver.tick(force=True)
+    assert written == tmp_path / "job.autosave.json"
+    first.runner.shutdown()
+
+    second = _window(qtbot, tmp_path, "second")
+    candidate = second.document.recovery_candidate(path)
+    assert candidate == written
+    with qtbot.waitSignal(second.analysis_shown, timeout=60_000):
+        second.document.open_session(path)
+    assert [a["id"] for a in second.session.annotations] == [note]
+    assert second.document.offer_recovery(candidate, ask=False)
+    assert [a["text"] for a in second.session.annotations] == ["pair GMF", "tooth 2"]
+    assert second.session.model.name == "window pair, edited"
+    assert second.document.findings.edit.toPlainText().startswith("Local damage")
+    assert second.document.gallery.captions() == ["spectrum with the GMF note"]
+    assert second.document.autosaver.dirty                # recovered work is unsaved work
+    report = second.document.write_report(tmp_path / "job.html")
+    assert "Local damage on the output gear" in report.read_text(encoding="utf-8")
+    second.runner.shutdown()
+
+    # the recording changes on disk: reopening flags it in the banner
+    third = _window(qtbot, tmp_path, "third")
+    recording.write_bytes(recording.read_bytes()[:-1] + b"\x00")
+    loaded = third.document.open_session(path)
+    assert loaded.recording_changed
+    assert "recording changed" in third.banner.plain_text()
+    third.runner.shutdown()
