@@ -16,6 +16,22 @@ an aid to the analyst's judgement, not a verdict); every picture with its
 caption and notes; the findings and recommendation; the cautions.  Every piece
 of text that comes from a user or a file (model names, notes, captions,
 findings, evidence) is escaped with :func:`html.escape`.
+
+The one-line meanings of the TSA indicators follow the papers that defined them.
+
+References
+----------
+.. [1] R. M. Stewart, "Some useful data analysis techniques for gearbox
+   diagnostics", Report MHM/R/10/77, Institute of Sound and Vibration Research,
+   University of Southampton, 1977 (FM0, FM4, the difference signal).
+.. [2] H. R. Martin, "Statistical moment analysis as a means of surface damage
+   detection", Proc. 7th International Modal Analysis Conference, 1989 (M6A, M8A).
+.. [3] J. J. Zakrajsek, D. P. Townsend and H. J. Decker, "An analysis of gear fault
+   detection methods as applied to pitting fatigue failure data", NASA TM-105950,
+   1993 (NA4).
+.. [4] N. S. Swansson, "Application of vibration signal analysis techniques to
+   signal monitoring", Conference on Friction and Wear in Engineering, Institution
+   of Engineers Australia, 1980 (energy ratio).
 """
 
 from __future__ import annotations
@@ -54,7 +70,7 @@ TSA_MEANINGS = {
     "kurtosis": "kurtosis of the average; rises with a local event once per revolution",
     "fm0": "peak-to-peak of the average over the mesh harmonic amplitudes; rises with heavy wear or a major defect (Stewart 1977)",
     "fm4": "kurtosis of the difference signal; about 3 for a healthy gear, rises with a local tooth defect (Stewart 1977)",
-    "na4": "FM4 normalised by the average variance of the run; tracks a defect as it grows (Zakrajsek et al. 1993)",
+    "na4": "kurtosis of the residual signal over the variance averaged along the run; tracks a defect as it grows (Zakrajsek et al. 1993)",
     "m6a": "sixth moment of the difference signal; about 15 when healthy, more sensitive to peaks than FM4 (Martin 1989)",
     "m8a": "eighth moment of the difference signal; about 105 when healthy, more sensitive still (Martin 1989)",
     "er": "energy ratio: RMS of the difference signal over RMS of the regular meshing; rises with heavy distributed wear (Swansson 1980)",
