@@ -238,7 +238,7 @@ def collect(recording_path: str | Path, model_path: str | Path | None = None, *,
     analysis = analyze(recording, model, settings)
     from workbench.snapshot import ensure_app
 
-    ensure_app()
+    ensure_app(headless=True)
     entries = list(getattr(session, "snapshots", None) or []) if session is not None else []
     if entries:
         images, problems = session_images(entries)

@@ -228,14 +228,20 @@ def session_for_recipe(recipe: dict[str, Any], model: Any) -> Any:
 
 
 # ---------------------------------------------------------------------- drawing
-def ensure_app():
-    """The running ``QApplication``, or a new one (offscreen when there is no display)."""
+def ensure_app(*, headless: bool = False):
+    """The running ``QApplication``, or a new one.
+
+    A new one uses Qt's offscreen platform when ``headless`` (the command line) or
+    when there is no display; ``QT_QPA_PLATFORM`` set by the user wins.
+    """
     import os
     import sys
 
-    if not os.environ.get("DISPLAY") and not os.environ.get("WAYLAND_DISPLAY") and sys.platform.startswith("linux"):
-        os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
     from PySide6.QtWidgets import QApplication
+
+    no_display = not os.environ.get("DISPLAY") and not os.environ.get("WAYLAND_DISPLAY")
+    if QApplication.instance() is None and (headless or (no_display and sys.platform.startswith("linux"))):
+        os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
 
     app = QApplication.instance() or QApplication([sys.argv[0] if sys.argv else "gearbench"])
     from workbench import theme
@@ -488,7 +494,7 @@ def regenerate(recipe_path: str | Path, out: str | Path, *, allow_changed: bool 
     """Regenerate a snapshot picture from its recipe file (PNG or SVG by the suffix of ``out``)."""
     recipe = load_recipe(recipe_path)
     recording, analysis = analysis_for_recipe(recipe, recipe_path, allow_changed=allow_changed)
-    ensure_app()
+    ensure_app(headless=True)
     return save_picture(recipe, analysis, out, recording)
 
 
@@ -600,8 +606,16 @@ def _gallery_class():
             self.list.itemChanged.connect(self._on_item_changed)
 
         def set_entries(self, entries: list[dict[str, Any]]) -> None:
+            ids = [str(e.get("id")) for e in entries]
+            shown = [str(self.list.item(i).data(Qt.ItemDataRole.UserRole)) for i in range(self.list.count())]
             self._filling = True
             try:
+                if ids == shown:   # same snapshots: only captions may have changed (no rebuild under an edit)
+                    for i, entry in enumerate(entries):
+                        text = entry.get("caption") or "(no caption)"
+                        if self.list.item(i).text() != text:
+                            self.list.item(i).setText(text)
+                    return
                 self.list.clear()
                 for entry in entries:
                     pixmap = QPixmap(str(entry.get("png", "")))

@@ -233,6 +233,11 @@ def test_window_saves_reopens_and_recovers_a_session(qtbot, tmp_path):
     assert first.session.model.name == "window pair, edited"
     entry = doc.snapshot("spectrum with the GMF note")
     assert Path(entry["png"]).is_file() and doc.gallery.captions() == ["spectrum with the GMF note"]
+    item = doc.gallery.list.item(0)
+    item.setText("spectrum, GMF")                        # the analyst edits the caption in the gallery
+    assert first.session.snapshots[0]["caption"] == "spectrum, GMF" and doc.gallery.list.item(0) is item
+    assert json.loads(Path(entry["recipe"]).read_text())["caption"] == "spectrum, GMF"
+    item.setText("spectrum with the GMF note")
     doc.findings.edit.setPlainText("Local damage on the output gear; re-measure in two weeks.")
     path = doc.save_session(tmp_path / "job.json")
     assert load_session(path).session.findings.startswith("Local damage")

@@ -36,7 +36,7 @@ def run(args) -> int:
         raise ReportError(f"model file not found: {args.model}; check the path")
     from workbench.snapshot import ensure_app, quiet_platform_notes
 
-    ensure_app()
+    ensure_app(headless=True)
     quiet_platform_notes()
     inp, _recording = collect(args.recording, args.model, session_path=args.session)
     written = write_report(inp, out)
