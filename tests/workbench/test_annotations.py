@@ -152,6 +152,12 @@ def test_text_is_plain_and_dialogs_are_used_for_add_and_edit(setup):
     assert note.textItem.toPlainText() == "<b>bold?</b> <script>x</script>"   # shown as typed, never as markup
     view.note_button.click()                                 # the toolbar button adds a note at the centre
     assert session.annotations[-1]["x"] == pytest.approx(500.0) and session.annotations[-1]["y"] == pytest.approx(0.5)
+    vb = view.plot.getViewBox()
+    layer._remember_mouse(vb.mapViewToScene(QPointF(700.0, 0.3)))   # where the right click happened
+    layer.arrow_action.trigger()                             # the plot's menu: "Add arrow here"
+    assert layer.arrow_action.text() == "Add arrow here" and layer.arrow_action in vb.menu.actions()
+    assert (session.annotations[-1]["kind"], session.annotations[-1]["x"]) == ("arrow", pytest.approx(700.0))
+    assert session.annotations[-1]["y"] == pytest.approx(0.3)
 
 
 def test_list_edits_never_change_their_input():
