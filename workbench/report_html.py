@@ -18,6 +18,8 @@ from workbench.report import (CAUTIONS, OVERALL_MEANINGS, SUSPECTS_LABEL, TSA_ME
                               recording_date)
 
 IMAGE_WIDTH_PX = 640
+SPEED_SOURCES = {"tach": "measured by the tach", "nominal": "nominal speed (no tach)",
+                 "estimated": "estimated from the vibration around the nominal speed"}
 STYLE = """
 body { font-family: sans-serif; font-size: 10pt; color: #1A1A1A; max-width: 60em; margin: 1.5em auto; }
 h1 { font-size: 17pt; } h2 { font-size: 13pt; margin-top: 1.2em; border-bottom: 1px solid #999; }
@@ -107,7 +109,8 @@ def report_html(inp: ReportInput, *, image_src: Callable[[int, ReportImage], str
         ("Length", f"{num(rec.get('duration_s'), '.2f')} s at {num(rec.get('sample_rate_hz'), 'g')} Hz"
                    + (f"; analysed {num(t0, '.2f')} to {num(t1, '.2f')} s" if t0 is not None else "")),
         ("Speed", f"shaft {esc(speed.shaft)}: {num(60.0 * speed.mean_hz, '.1f')} rpm ({num(speed.mean_hz, '.3f')} Hz), "
-                  f"range {num(60.0 * speed.min_hz, '.1f')} to {num(60.0 * speed.max_hz, '.1f')} rpm, from the {esc(speed.source)}"),
+                  f"range {num(60.0 * speed.min_hz, '.1f')} to {num(60.0 * speed.max_hz, '.1f')} rpm, "
+                  + esc(SPEED_SOURCES.get(speed.source, speed.source))),
     ]
     parts.append(_table(None, [[f"<b>{k}</b>", v] for k, v in facts]))
     if inp.recording_changed:

@@ -291,11 +291,47 @@ def _drop_unknown_fields(core: dict[str, Any], key: str, module: str, cls_name: 
     cls = getattr(importlib.import_module(module), cls_name, None)
     if not isinstance(value, dict) or cls is None:
         return
-    names = {f.name for f in dataclasses.fields(cls)}
-    unknown = sorted(set(value) - names)
+    fields = {f.name: f for f in dataclasses.fields(cls)}
+    unknown = sorted(set(value) - set(fields))
     if unknown:
         warnings.append(f"ignored unknown {key} keys in {source}: {', '.join(unknown)}")
-        core[key] = {k: v for k, v in value.items() if k in names}
+    kept = {}
+    for name, item in value.items():
+        if name not in fields:
+            continue
+        f = fields[name]
+        default = f.default if f.default is not dataclasses.MISSING else f.default_factory()  # type: ignore[misc]
+        if _same_kind(item, default):
+            kept[name] = item
+        else:
+            warnings.append(f"ignored {key}.{name} in {source}: {type(item).__name__} where "
+                            f"{type(default).__name__ if default is not None else 'a number, a pair or null'} belongs")
+    core[key] = kept
+
+
+def _same_kind(value: Any, default: Any) -> bool:
+    """A JSON value fits a dataclass field when it has the kind of the field's default.
+
+    Numbers fit numbers (never booleans), pairs fit tuples, and a field whose
+    default is ``None`` takes ``None``, a number or a pair of numbers.
+    """
+    def number(v: Any) -> bool:
+        return isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v)
+
+    def numbers(v: Any) -> bool:
+        return isinstance(v, list) and all(number(x) for x in v)
+
+    if default is None:
+        return value is None or number(value) or numbers(value)
+    if isinstance(default, bool):
+        return isinstance(value, bool)
+    if isinstance(default, (int, float)):
+        return number(value) and (isinstance(default, float) or float(value).is_integer())
+    if isinstance(default, str):
+        return isinstance(value, str)
+    if isinstance(default, tuple):
+        return numbers(value) and len(value) == len(default)
+    return value is None or isinstance(value, type(default))
 
 
 def _session_core_keys(session_cls: Any) -> tuple[str, ...]:

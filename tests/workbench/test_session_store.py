@@ -98,6 +98,9 @@ def test_session_file_is_data_only(tmp_path):
     doc = session_to_document(_session(tmp_path))
     doc["plugin"] = "__import__('os').system('echo owned')"   # never evaluated
     doc["settings"]["future_option"] = 3
+    doc["settings"]["alarm_threshold"] = "high"               # wrong type: the default is kept
+    doc["settings"]["envelope_band_hz"] = [1000, "x"]
+    doc["view_options"]["spectrum_log_y"] = 1
     doc["annotations"].append({"id": "bad", "view": "tsa", "kind": "note", "x": "1e3; rm -rf", "y": 0.0,
                                "text": "x", "x_units": "", "y_units": ""})
     doc["cursors"] = "not a list"
@@ -106,6 +109,12 @@ def test_session_file_is_data_only(tmp_path):
     loaded = load_session(path)
     text = " | ".join(loaded.warnings)
     assert "plugin" in text and "future_option" in text          # unknown keys ignored with a warning
+    assert "settings.alarm_threshold" in text and "settings.envelope_band_hz" in text
+    assert "view_options.spectrum_log_y" in text
+    settings = loaded.session.settings
+    assert settings.alarm_threshold == 0.5 and settings.envelope_band_hz is None   # dsp.analysis.Settings defaults
+    assert loaded.session.view_options.spectrum_log_y is True
+    assert settings.t_start_s == 1.5                                  # the well-typed values are kept
     assert "annotations" in text and "cursors" in text
     assert [a["id"] for a in loaded.session.annotations] == ["a1"]   # the wrongly typed entry is dropped
     assert loaded.session.cursors == []
