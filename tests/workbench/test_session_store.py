@@ -240,7 +240,15 @@ def test_window_saves_reopens_and_recovers_a_session(qtbot, tmp_path):
     assert first.session.model.name == "window pair" and first.form.model().name == "window pair"
     doc.redo_action.trigger()
     assert first.session.model.name == "window pair, edited"
+    spectrum = first.views["spectrum"]
+    spectrum.cursor_set.add_harmonic(380.0)               # a cursor (workbench.cursors) ...
+    assert len(first.session.cursors) == 1
+    doc.undo_action.trigger()                             # ... is undone like any edit
+    assert first.session.cursors == [] and spectrum.cursor_set.cursors == []
+    doc.redo_action.trigger()
+    assert len(first.session.cursors) == 1 and len(spectrum.cursor_set.cursors) == 1
     entry = doc.snapshot("spectrum with the GMF note")
+    assert json.loads(Path(entry["recipe"]).read_text())["cursors"] == first.session.cursors
     assert Path(entry["png"]).is_file() and doc.gallery.captions() == ["spectrum with the GMF note"]
     item = doc.gallery.list.item(0)
     item.setText("spectrum, GMF")                        # the analyst edits the caption in the gallery
