@@ -160,18 +160,28 @@ def default_images(analysis: Any, recording: Any = None, *, size_px: tuple[int, 
 def session_images(entries: list[dict[str, Any]]) -> tuple[list[ReportImage], list[str]]:
     """Pictures of a session's snapshots, with their captions and the notes written on them.
 
-    Returns the images and sentences about snapshots that could not be read.
+    A missing picture whose recipe is still there is regenerated from the recipe
+    (:func:`workbench.snapshot.regenerate`).  Returns the images and sentences
+    about snapshots that could not be read.
     """
     images, problems = [], []
     for entry in entries:
         png = Path(str(entry.get("png", "")))
+        recipe_path = Path(str(entry.get("recipe", "")))
+        if not png.is_file() and recipe_path.is_file():
+            try:   # the picture was lost but its recipe is there: draw it again
+                from workbench.snapshot import regenerate
+
+                regenerate(recipe_path, png)
+            except GearbenchError as exc:
+                problems.append(f"the picture {png.name} is missing and cannot be regenerated ({exc})")
+                continue
         try:
             data = png.read_bytes()
         except OSError:
             problems.append(f"the picture {png} of a snapshot is missing; regenerate it from its recipe")
             continue
         notes: tuple[str, ...] = ()
-        recipe_path = Path(str(entry.get("recipe", "")))
         if recipe_path.is_file():
             try:
                 recipe = json.loads(recipe_path.read_text(encoding="utf-8"))

@@ -173,8 +173,10 @@ def test_html_escapes_user_text_and_embeds_the_pictures(qtbot, tmp_path, recordi
     session.set_findings(f"Broken tooth on the output gear. {attack}\n\nReplace the gear <soon>.")
     session_path = save_session(session, tmp_path / "job.json")
 
+    Path(entry["png"]).unlink()                                             # the picture is lost, its recipe is not
     out = tmp_path / "report.html"
     assert main(["report", str(recording_path), "--session", str(session_path), "-o", str(out)]) == 0
+    assert Path(entry["png"]).is_file()                                     # drawn again from the recipe
     text = out.read_text(encoding="utf-8")
     assert "<script" not in text.lower()                                    # no raw script from user text
     assert text.count("&lt;script&gt;alert(&quot;x&quot;)&lt;/script&gt;") == 3   # note, caption, findings
