@@ -107,14 +107,17 @@ def test_tsa_recipe_regenerates_the_saved_picture(qtbot, tmp_path, simulated, ca
                             env=dict(os.environ, QT_QPA_PLATFORM="offscreen"))
     assert result.returncode == 0, result.stderr
     assert "wrote" in result.stdout and result.stderr == ""   # nothing but the result on a good run
-    difference = mean_difference(saved, pixels(out))
+    regenerated = pixels(out)
+    difference = mean_difference(saved, regenerated)
     assert difference < SAME_PICTURE                          # brief: mean absolute difference < 1-2 %
+    # a note alone moves the mean by only ~0.15 %, so also bound the share of pixels that differ at all
+    assert np.mean(np.any(saved != regenerated, axis=2)) < 0.001   # common practice, no source
 
     # the comparison can fail: another TSA signal or no note gives a visibly different picture
     other = dict(recipe, view=dict(recipe["view"], options=dict(recipe["view"]["options"], tsa_signal="difference")))
     assert mean_difference(saved, pixels(snapshot.render(other, analysis, recording))) > 5 * max(difference, 1e-4)
-    bare = dict(recipe, annotations=[])
-    assert np.any(pixels(snapshot.render(bare, analysis, recording)) != saved)
+    bare = pixels(snapshot.render(dict(recipe, annotations=[]), analysis, recording))
+    assert np.mean(np.any(bare != saved, axis=2)) > 0.001      # the same bound catches a missing note
 
     # SVG of the same recipe: an SVG document of the same size
     svg = tmp_path / "regenerated.svg"
