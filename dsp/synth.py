@@ -754,7 +754,8 @@ def _save_model(train, path: Path) -> None:
 
 
 def write_simulation(sim: Simulation, path, train, *, scale: float | None = None,
-                     sensor_name: str = "simulated", location: str = "", direction: str = "radial"):
+                     sensor_name: str = "simulated", location: str = "", direction: str = "radial",
+                     with_tach: bool = True):
     """Write a simulation as 24-bit FLAC plus its model TOML (same stem).
 
     The accelerometer channel is stored as ``g / scale`` so that file value x
@@ -776,6 +777,11 @@ def write_simulation(sim: Simulation, path, train, *, scale: float | None = None
         20, 50, ... g that leaves 20 % headroom.
     sensor_name, location, direction : str
         Used for the sensor when ``train`` has none.
+    with_tach : bool
+        When False, write the accelerometer channel alone (a route recording
+        without a tachometer); the model written has no tach channel and keeps
+        ``train.tach.nominal_rpm`` (the nameplate speed) when it is set, else the
+        simulated mean speed, so that analysis has to estimate the speed.
 
     Returns
     -------
@@ -812,12 +818,19 @@ def write_simulation(sim: Simulation, path, train, *, scale: float | None = None
     else:
         s0 = Sensor(name=sensor_name, channel=ACCEL_CHANNEL, scale=float(scale), units="g",
                     location=location, direction=direction)
-    tach = replace(train.tach, shaft=sim.reference_shaft, channel=TACH_CHANNEL, pulses_per_rev=1,
-                   edge="rising", nominal_rpm=sim.parameters.get("rpm", train.tach.nominal_rpm))
+    if with_tach:
+        tach = replace(train.tach, shaft=sim.reference_shaft, channel=TACH_CHANNEL, pulses_per_rev=1,
+                       edge="rising", nominal_rpm=sim.parameters.get("rpm", train.tach.nominal_rpm))
+        frames = np.empty((sim.n_frames, 2), dtype=np.float64)
+        frames[:, ACCEL_CHANNEL] = sim.acceleration_g / scale
+        frames[:, TACH_CHANNEL] = sim.tach
+    else:
+        nominal = train.tach.nominal_rpm or sim.parameters.get("rpm")
+        tach = replace(train.tach, shaft=sim.reference_shaft, channel=None, pulses_per_rev=1,
+                       edge="rising", nominal_rpm=float(nominal))
+        s0 = replace(s0, channel=0)
+        frames = (sim.acceleration_g / scale).astype(np.float64)[:, None]
     out_train = replace(train, sensors=(s0,), tach=tach)
-    frames = np.empty((sim.n_frames, 2), dtype=np.float64)
-    frames[:, ACCEL_CHANNEL] = sim.acceleration_g / scale
-    frames[:, TACH_CHANNEL] = sim.tach
     try:
         soundfile.write(str(path), frames, int(round(sim.fs)), subtype="PCM_24", format="FLAC")
     except (OSError, RuntimeError, soundfile.LibsndfileError) as exc:

@@ -44,7 +44,13 @@ SCENARIOS: dict[str, tuple[str, tuple[Fault, ...], str, float, int]] = {
     "06_speed_variation": ("broken tooth (as 03) with +-8 % slow speed wander",
                            (Fault("tooth", "stage 1:intermediate", tooth=40, severity="severe"),),
                            "fluctuating", 8.0, 106),
+    "07_no_tach_route": ("route recording without tach, early localized damage, input pinion tooth 7",
+                         (Fault("tooth", "stage 1:input", tooth=7, severity="mild"),), "fluctuating", 0.5, 102),  # seed of 02: the same damaged pinion
 }
+
+#: Recordings written without a tach channel: the model keeps nominal_rpm = RPM (the
+#: nameplate) while the machine runs at RPM x (1 + offset) with the wander above.
+NO_TACH: dict[str, float] = {"07_no_tach_route": -0.02}
 
 
 def demo_train(title: str = "") -> GearTrain:
@@ -73,7 +79,8 @@ def demo_simulation(stem: str):
     """``(simulation, train)`` of one demo recording, exactly as the script makes it."""
     title, faults, speed, variation, seed = SCENARIOS[stem]
     train = demo_train(title)
-    sim = simulate(train, rpm=RPM, duration_s=DURATION_S, fs=FS_HZ, faults=faults, speed=speed,
+    rpm = RPM * (1.0 + NO_TACH.get(stem, 0.0))
+    sim = simulate(train, rpm=rpm, duration_s=DURATION_S, fs=FS_HZ, faults=faults, speed=speed,
                    speed_variation_pct=variation, seed=seed)
     return sim, train
 
@@ -89,7 +96,7 @@ def main(argv: list[str] | None = None) -> int:
             continue
         sim, train = demo_simulation(stem)
         path = args.out / f"{stem}.flac"
-        write_simulation(sim, path, train, scale=FULL_SCALE_G)
+        write_simulation(sim, path, train, scale=FULL_SCALE_G, with_tach=stem not in NO_TACH)
         print(f"{path}  {path.stat().st_size / 1e6:.2f} MB  peak {abs(sim.acceleration_g).max():.2f} g")
     return 0
 
