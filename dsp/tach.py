@@ -270,6 +270,11 @@ def _speed_warnings(t: np.ndarray, ppr: int, n_gaps_left: int) -> list[str]:
     return warnings
 
 
+#: How to go on without a usable tach (the analysis then estimates the speed from a mesh).
+_NO_TACH_HINT = ("without a working tach, remove tach.channel from the model and keep tach.nominal_rpm "
+                 "so that the speed is estimated from the gear mesh")
+
+
 def detect_pulses(x, fs, *, pulses_per_rev: int = 1, edge: str = "rising", threshold: float | None = None,
                   hysteresis: float | None = None, window: int | None = None) -> TachPulses:
     """Find tach or encoder pulses, time them to a fraction of a sample, and repair the train.
@@ -342,8 +347,8 @@ def detect_pulses(x, fs, *, pulses_per_rev: int = 1, edge: str = "rising", thres
     swing = hi - lo
     if not np.isfinite(swing) or swing <= 1e-9 * max(abs(hi), abs(lo), 1e-30) or swing == 0:
         raise TachError(
-            "the tach channel is flat (no pulses); check the channel number and wiring, "
-            "or set tach.nominal_rpm in the model to use a constant speed"
+            "the tach channel is flat (no pulses); check the channel number and wiring or, "
+            + _NO_TACH_HINT
         )
     thr = 0.5 * (lo + hi) if threshold is None else float(threshold)
     hyst = 0.2 * swing if hysteresis is None else float(hysteresis)
@@ -358,7 +363,7 @@ def detect_pulses(x, fs, *, pulses_per_rev: int = 1, edge: str = "rising", thres
     if n_found < 3:
         raise TachError(
             f"the tach channel gives {n_found} pulse{'s' if n_found != 1 else ''} (at least 3 needed); "
-            "check the channel, edge and threshold, or set tach.nominal_rpm in the model to use a constant speed"
+            "check the channel, edge and threshold or, " + _NO_TACH_HINT
         )
     t = edges / fs
 
@@ -366,8 +371,8 @@ def detect_pulses(x, fs, *, pulses_per_rev: int = 1, edge: str = "rising", thres
     t, n_rejected = _reject_extra(t, half)
     if t.size < 3:
         raise TachError(
-            "after removing glitches fewer than 3 tach pulses remain; check the tach channel, "
-            "or set tach.nominal_rpm in the model to use a constant speed"
+            "after removing glitches fewer than 3 tach pulses remain; check the tach channel or, "
+            + _NO_TACH_HINT
         )
     t, repaired, n_gaps_left = _insert_missing(t, half)
     warnings = _speed_warnings(t, ppr, n_gaps_left)
