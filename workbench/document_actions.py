@@ -25,10 +25,10 @@ import logging
 from pathlib import Path
 from typing import Any
 
-from PySide6.QtCore import QObject, QStandardPaths, Qt, QTimer
-from PySide6.QtGui import QAction, QKeySequence
-from PySide6.QtWidgets import (QDockWidget, QFileDialog, QInputDialog, QLabel, QMessageBox, QPlainTextEdit,
-                               QVBoxLayout, QWidget)
+from PySide6.QtCore import QObject, QSize, QStandardPaths, Qt, QTimer, Signal
+from PySide6.QtGui import QAction, QIcon, QKeySequence, QPixmap
+from PySide6.QtWidgets import (QDockWidget, QFileDialog, QInputDialog, QLabel, QListWidget, QListWidgetItem,
+                               QMessageBox, QPlainTextEdit, QVBoxLayout, QWidget)
 
 from dsp.errors import GearbenchError
 from workbench import session_store
@@ -81,6 +81,69 @@ class FindingsBox(QWidget):
         self._show(event.value or "")
 
 
+class SnapshotGallery(QWidget):
+    """The session's snapshots: thumbnail and caption; double click a caption to edit it.
+
+    Signals
+    -------
+    caption_edited(str, str)
+        Snapshot id and its new caption.
+    """
+
+    caption_edited = Signal(str, str)
+    THUMB_PX = QSize(220, 124)
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        layout = QVBoxLayout(self)
+        layout.setContentsMargins(4, 4, 4, 4)
+        self.hint = QLabel("No snapshots yet: use View > Snapshot of this view.")
+        self.hint.setWordWrap(True)
+        layout.addWidget(self.hint)
+        self.list = QListWidget()
+        self.list.setViewMode(QListWidget.ViewMode.IconMode)
+        self.list.setIconSize(self.THUMB_PX)
+        self.list.setResizeMode(QListWidget.ResizeMode.Adjust)
+        self.list.setMovement(QListWidget.Movement.Static)
+        self.list.setWordWrap(True)
+        self.list.setSpacing(6)
+        layout.addWidget(self.list, 1)
+        self._filling = False
+        self.list.itemChanged.connect(self._on_item_changed)
+
+    def set_entries(self, entries: list[dict[str, Any]]) -> None:
+        ids = [str(e.get("id")) for e in entries]
+        shown = [str(self.list.item(i).data(Qt.ItemDataRole.UserRole)) for i in range(self.list.count())]
+        self._filling = True
+        try:
+            if ids == shown:   # same snapshots: only captions may have changed (no rebuild under an edit)
+                for i, entry in enumerate(entries):
+                    text = entry.get("caption") or "(no caption)"
+                    if self.list.item(i).text() != text:
+                        self.list.item(i).setText(text)
+                return
+            self.list.clear()
+            for entry in entries:
+                pixmap = QPixmap(str(entry.get("png", "")))
+                icon = QIcon(pixmap.scaled(self.THUMB_PX, Qt.AspectRatioMode.KeepAspectRatio,
+                                           Qt.TransformationMode.SmoothTransformation)) if not pixmap.isNull() else QIcon()
+                item = QListWidgetItem(icon, entry.get("caption") or "(no caption)")
+                item.setData(Qt.ItemDataRole.UserRole, entry.get("id"))
+                item.setToolTip(f"{entry.get('view', '')}: {entry.get('recipe', '')}")
+                item.setFlags(item.flags() | Qt.ItemFlag.ItemIsEditable)
+                self.list.addItem(item)
+            self.hint.setVisible(not entries)
+        finally:
+            self._filling = False
+
+    def captions(self) -> list[str]:
+        return [self.list.item(i).text() for i in range(self.list.count())]
+
+    def _on_item_changed(self, item) -> None:
+        if not self._filling:
+            self.caption_edited.emit(str(item.data(Qt.ItemDataRole.UserRole)), item.text())
+
+
 class DocumentActions(QObject):
     """Sessions, undo, annotations, snapshots, findings and report for one window.
 
@@ -118,8 +181,6 @@ class DocumentActions(QObject):
 
     # ------------------------------------------------------------------ building
     def _build_docks(self) -> None:
-        from workbench.snapshot import SnapshotGallery
-
         w = self.window
         self.findings = FindingsBox(self.session)
         self.findings_dock = QDockWidget("Findings", w)
@@ -418,4 +479,4 @@ class DocumentActions(QObject):
             self._guard("Could not write the report", self.write_report, path)
 
 
-__all__ = ["DocumentActions", "FindingsBox"]
+__all__ = ["DocumentActions", "FindingsBox", "SnapshotGallery"]

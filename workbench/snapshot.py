@@ -19,8 +19,8 @@ regenerated one come from one code path.
 The picture is the view's plots stacked (the control row is not drawn) under one
 header line with the view's title and its caption.
 
-:class:`SnapshotGallery` lists the snapshots of a session with a thumbnail and an
-editable caption.
+:class:`workbench.document_actions.SnapshotGallery` lists the snapshots of a session
+with a thumbnail and an editable caption.
 """
 
 from __future__ import annotations
@@ -569,87 +569,6 @@ def _jsonable(value: Any) -> Any:
     return value
 
 
-# ---------------------------------------------------------------------- gallery
-def _gallery_class():
-    from PySide6.QtCore import QSize, Qt, Signal
-    from PySide6.QtGui import QIcon, QPixmap
-    from PySide6.QtWidgets import QListWidget, QListWidgetItem, QVBoxLayout, QWidget, QLabel
-
-    class SnapshotGallery(QWidget):
-        """The session's snapshots: thumbnail and caption; double click a caption to edit it.
-
-        Signals
-        -------
-        caption_edited(str, str)
-            Snapshot id and its new caption.
-        """
-
-        caption_edited = Signal(str, str)
-        THUMB_PX = QSize(220, 124)
-
-        def __init__(self, parent=None):
-            super().__init__(parent)
-            layout = QVBoxLayout(self)
-            layout.setContentsMargins(4, 4, 4, 4)
-            self.hint = QLabel("No snapshots yet: use View > Snapshot of this view.")
-            self.hint.setWordWrap(True)
-            layout.addWidget(self.hint)
-            self.list = QListWidget()
-            self.list.setViewMode(QListWidget.ViewMode.IconMode)
-            self.list.setIconSize(self.THUMB_PX)
-            self.list.setResizeMode(QListWidget.ResizeMode.Adjust)
-            self.list.setMovement(QListWidget.Movement.Static)
-            self.list.setWordWrap(True)
-            self.list.setSpacing(6)
-            layout.addWidget(self.list, 1)
-            self._filling = False
-            self.list.itemChanged.connect(self._on_item_changed)
-
-        def set_entries(self, entries: list[dict[str, Any]]) -> None:
-            ids = [str(e.get("id")) for e in entries]
-            shown = [str(self.list.item(i).data(Qt.ItemDataRole.UserRole)) for i in range(self.list.count())]
-            self._filling = True
-            try:
-                if ids == shown:   # same snapshots: only captions may have changed (no rebuild under an edit)
-                    for i, entry in enumerate(entries):
-                        text = entry.get("caption") or "(no caption)"
-                        if self.list.item(i).text() != text:
-                            self.list.item(i).setText(text)
-                    return
-                self.list.clear()
-                for entry in entries:
-                    pixmap = QPixmap(str(entry.get("png", "")))
-                    icon = QIcon(pixmap.scaled(self.THUMB_PX, Qt.AspectRatioMode.KeepAspectRatio,
-                                               Qt.TransformationMode.SmoothTransformation)) if not pixmap.isNull() else QIcon()
-                    item = QListWidgetItem(icon, entry.get("caption") or "(no caption)")
-                    item.setData(Qt.ItemDataRole.UserRole, entry.get("id"))
-                    item.setToolTip(f"{entry.get('view', '')}: {entry.get('recipe', '')}")
-                    item.setFlags(item.flags() | Qt.ItemFlag.ItemIsEditable)
-                    self.list.addItem(item)
-                self.hint.setVisible(not entries)
-            finally:
-                self._filling = False
-
-        def captions(self) -> list[str]:
-            return [self.list.item(i).text() for i in range(self.list.count())]
-
-        def _on_item_changed(self, item) -> None:
-            if not self._filling:
-                self.caption_edited.emit(str(item.data(Qt.ItemDataRole.UserRole)), item.text())
-
-    return SnapshotGallery
-
-
-def __getattr__(name: str):
-    # the gallery is a Qt widget: build its class on first use so that the recipe
-    # functions stay importable without Qt
-    if name == "SnapshotGallery":
-        cls = _gallery_class()
-        globals()["SnapshotGallery"] = cls
-        return cls
-    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-
-
 __all__ = ["SCHEMA", "SnapshotError", "build_recipe", "load_recipe", "check_recipe", "settings_from_dict",
            "session_for_recipe", "make_view", "render", "render_svg", "save_picture", "regenerate",
-           "analysis_for_recipe", "take_snapshot", "set_caption", "view_state", "SnapshotGallery"]
+           "analysis_for_recipe", "take_snapshot", "set_caption", "view_state"]

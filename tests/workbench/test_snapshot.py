@@ -23,6 +23,7 @@ from dsp.recording import read_recording
 from dsp.synth import Fault, simulate, write_simulation
 from workbench import snapshot, theme
 from workbench.cli import main
+from workbench.document_actions import SnapshotGallery
 from workbench.session import Session
 from workbench.views.spectrum import SpectrumView
 from workbench.views.tsa import TsaView
@@ -198,7 +199,7 @@ def test_gallery_lists_snapshots_and_edits_captions(qtbot, tmp_path, simulated):
     entries = [snapshot.take_snapshot(session=session, analysis=analysis, view=view, folder=tmp_path,
                                       caption=f"picture {i}", recording=recording) for i in (1, 2)]
     assert [Path(e["png"]).name for e in entries] == ["snapshot-001-spectrum.png", "snapshot-002-spectrum.png"]
-    gallery = snapshot.SnapshotGallery()
+    gallery = SnapshotGallery()
     qtbot.addWidget(gallery)
     gallery.set_entries(entries)
     assert gallery.captions() == ["picture 1", "picture 2"] and not gallery.list.item(0).icon().isNull()
