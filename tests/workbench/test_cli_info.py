@@ -114,13 +114,16 @@ def test_info_flat_tach_without_nominal_is_one_line_exit_2(tmp_path, capsys):
     assert len(err.splitlines()) == 1 and "nominal_rpm" in err
 
 
-def test_info_flat_tach_falls_back_on_nominal(tmp_path, capsys):
+def test_info_flat_tach_falls_back_on_the_mesh_estimate(tmp_path, capsys):
+    # as gearbench analyze does without a tach: the speed follows the mesh line (1000 Hz =
+    # 40 teeth x 25 Hz), with nominal_rpm as the starting guess (Bonnardot et al. 2005)
     rec = tmp_path / "flat2.flac"
     _recording(rec, flat_tach=True)
-    (tmp_path / "flat2.toml").write_text(MODEL.replace("{tach}", "channel = 1\nnominal_rpm = 1500.0"))
+    (tmp_path / "flat2.toml").write_text(MODEL.replace("{tach}", "channel = 1\nnominal_rpm = 1470.0"))
     assert main(["info", str(rec), "--json"]) == 0
     d = json.loads(capsys.readouterr().out)
-    assert d["speed"]["source"] == "nominal"
+    assert d["speed"]["source"] == "estimated"
+    assert d["speed"]["mean_rpm"] == pytest.approx(60 * F_INPUT_HZ, rel=1e-3)  # the simulated 1500 rpm
     assert any("flat" in w for w in d["warnings"])
 
 

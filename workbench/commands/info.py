@@ -52,9 +52,14 @@ def _channel_roles(train, n_channels: int) -> dict[int, str]:
 
 
 def _speed(rec, train, warnings: list[str]):
-    """(profile, pulses) of the reference shaft from the model's tach or nominal speed."""
+    """(profile, pulses) of the reference shaft from the model's tach, else from the mesh.
+
+    Without a usable tach channel but with ``nominal_rpm``, the speed is estimated
+    from the first sensor's mesh phase as ``gearbench analyze`` does
+    (:func:`dsp.speed_estimate.estimate_speed`), so both commands agree.
+    """
     from dsp.errors import TachError
-    from dsp.tach import detect_pulses, nominal_profile, speed_profile
+    from dsp.tach import detect_pulses, speed_profile
 
     tach = train.tach
     reference = tach.shaft or (train.shafts[0].name if train.shafts else "")
@@ -65,17 +70,48 @@ def _speed(rec, train, warnings: list[str]):
         except TachError as exc:
             if tach.nominal_rpm is None:
                 raise
-            warnings.append(f"tach channel {tach.channel} unusable ({exc}); using nominal_rpm "
-                            f"{tach.nominal_rpm:g} instead")
-            return nominal_profile(tach.nominal_rpm, rec.duration_s, reference), None
+            warnings.append(f"tach channel {tach.channel} unusable ({exc})")
+            return _estimated(rec, train, reference, warnings), None
         warnings.extend(pulses.warnings)
-        if pulses.n_repaired or pulses.n_rejected:
+        if (pulses.n_repaired or pulses.n_rejected) and not any("inserted" in w for w in pulses.warnings):
             warnings.append(f"tach repaired: {pulses.n_repaired} pulse(s) inserted, "
                             f"{pulses.n_rejected} rejected out of {pulses.n_found} found")
         return speed_profile(pulses, reference), pulses
     if tach.nominal_rpm is not None:
-        return nominal_profile(tach.nominal_rpm, rec.duration_s, reference), None
+        return _estimated(rec, train, reference, warnings), None
     return None, None
+
+
+def _estimated(rec, train, reference: str, warnings: list[str]):
+    """Speed profile estimated from the first sensor's mesh phase, else the nominal speed."""
+    import numpy as np
+
+    from dsp.errors import GearbenchError
+    from dsp.recording import sensor_signal
+    from dsp.speed_estimate import estimate_speed
+    from dsp.tach import nominal_profile
+
+    rpm = float(train.tach.nominal_rpm)
+    if train.sensors and (train.meshes or train.planetary):
+        try:
+            x = sensor_signal(rec, train.sensors[0])
+            if not np.all(np.isfinite(x)):
+                x = np.nan_to_num(x, nan=0.0, posinf=0.0, neginf=0.0)
+            est = estimate_speed(x, rec.sample_rate_hz, train, nominal_rpm=rpm, reference_shaft=reference)
+        except (GearbenchError, ValueError) as exc:
+            warnings.append(f"speed estimate failed ({exc}); the nominal speed {rpm:g} rpm is assumed constant")
+        else:
+            if est.method != "nominal":
+                warnings.append(f"no tach: the speed was estimated from harmonic {est.harmonic} of {est.mesh} "
+                                f"({est.method}), {est.offset_pct:+.2f} % from the nominal {rpm:g} rpm")
+                return est.profile
+            warnings.append(f"no tach and no mesh line clear enough to follow: the nominal speed {rpm:g} rpm "
+                            "is assumed constant")
+            return est.profile
+    else:
+        warnings.append(f"no tach: the nominal speed {rpm:g} rpm is assumed constant (the model has no "
+                        "sensor or mesh to estimate it from)")
+    return nominal_profile(rpm, rec.duration_s, reference)
 
 
 def collect(recording: str, model: str | None = None) -> dict:
@@ -116,7 +152,8 @@ def collect(recording: str, model: str | None = None) -> dict:
                               "peak": _finite(q.peak * abs(sensor.scale)), "rms": _finite(q.rms * abs(sensor.scale))}
         channels.append(item)
         if q.n_nonfinite:
-            warnings.append(f"channel {i} holds {q.n_nonfinite} NaN or infinite samples")
+            warnings.append(f"channel {i} holds {q.n_nonfinite} NaN or infinite samples; the analysis sets them to 0 "
+                            "- export the recording again or cut that stretch out")
         if q.flat:
             warnings.append(f"channel {i} is flat (every sample equal); check the wiring or the channel number")
         elif q.clipped and role != "tach":
