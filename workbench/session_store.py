@@ -34,7 +34,7 @@ import math
 import os
 import tempfile
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Callable
 
@@ -72,7 +72,7 @@ class SessionFileError(GearbenchError):
     """A session file cannot be read or does not hold a gearbench session."""
 
 
-@dataclass
+@dataclass(frozen=True)
 class LoadedSession:
     """What :func:`load_session` gives back.
 
@@ -82,7 +82,7 @@ class LoadedSession:
         The document, with the extra keys set as attributes.
     path : Path
         The file read.
-    warnings : list of str
+    warnings : tuple of str
         Sentences about keys ignored or values dropped; the document is usable.
     recording_changed : bool
         True when the recording's SHA-256 differs from the one saved (see
@@ -91,7 +91,7 @@ class LoadedSession:
 
     session: Any
     path: Path
-    warnings: list[str] = field(default_factory=list)
+    warnings: tuple[str, ...] = ()
     recording_changed: bool = False
 
 
@@ -218,15 +218,15 @@ def load_session(path: str | Path, *, check_recording: bool = True) -> LoadedSes
         raise SessionFileError(f"the session file {path.name} is damaged (not valid JSON{where}); "
                                "open its autosave or another copy, the file was left as it is") from None
     session, warnings = session_from_document(data, source=path.name)
-    loaded = LoadedSession(session=session, path=path, warnings=warnings)
+    changed = False
     if check_recording:
         status = recording_status(session)
         if status is not None:
-            loaded.recording_changed = status.startswith("the recording changed")
-            loaded.warnings.append(status)
-    for text in loaded.warnings:
+            changed = status.startswith("the recording changed")
+            warnings.append(status)
+    for text in warnings:
         log.warning("%s: %s", path.name, text)
-    return loaded
+    return LoadedSession(session=session, path=path, warnings=tuple(warnings), recording_changed=changed)
 
 
 def session_from_document(data: Any, *, source: str = "the session") -> tuple[Any, list[str]]:
