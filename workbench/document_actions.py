@@ -419,8 +419,10 @@ class DocumentActions(QObject):
             images, notes = session_images(self.session.snapshots)
         else:
             images = default_images(analysis, self.window.recording)
+        zone = getattr(getattr(getattr(self.window, "baseline", None), "panel", None), "zone", None)
         return ReportInput(analysis=analysis, images=tuple(images), findings=self.session.findings or "",
-                           created_utc=utc_now(), session_path=str(self.session_path or ""), notes=tuple(notes))
+                           created_utc=utc_now(), session_path=str(self.session_path or ""), notes=tuple(notes),
+                           severity=zone)
 
     def write_report(self, path: str | Path) -> Path:
         from workbench.report import write_report

@@ -108,6 +108,11 @@ class ReportInput:
         The session file the report came from (empty without one).
     recording_changed : bool
         The recording's SHA-256 differs from the one in the session.
+    notes : tuple of str
+        Sentences about the input (keys ignored in the session, pictures missing).
+    severity : dsp.severity.ZoneResult, optional
+        The ISO 20816-3 evaluation zone the analyst chose to show (machine group
+        and foundation); shown with its caution.
     """
 
     analysis: Any
@@ -117,6 +122,7 @@ class ReportInput:
     session_path: str = ""
     recording_changed: bool = False
     notes: tuple[str, ...] = field(default_factory=tuple)
+    severity: Any = None                       # dsp.severity.ZoneResult shown in the window, if any
 
 
 def utc_now() -> str:

@@ -143,7 +143,7 @@ def report_html(inp: ReportInput, *, image_src: Callable[[int, ReportImage], str
     parts.append(_table(["Indicator", "Value", "Units", "What it means"], rows, numeric={1}))
     if overall.get("clipped"):
         parts.append('<p class="caution">The signal is clipped: impacts and kurtosis are understated.</p>')
-    severity = _severity(a)
+    severity = inp.severity if _is_zone(inp.severity) else _severity(a)
     if severity is not None:
         parts.append(f"<p><b>Severity zone (ISO 20816-3):</b> {esc(severity.summary())}</p>")
 
@@ -233,12 +233,16 @@ def _model_lines(model: Any) -> list[str]:
     return lines
 
 
+def _is_zone(zone: Any) -> bool:
+    return hasattr(zone, "summary") and hasattr(zone, "caution")
+
+
 def _severity(analysis: Any) -> Any:
     """The severity zone the analysis carries, if any (shown with its caution)."""
     zone = getattr(analysis, "severity", None)
     if zone is None:
         zone = (getattr(analysis, "extras", None) or {}).get("severity")
-    return zone if hasattr(zone, "summary") and hasattr(zone, "caution") else None
+    return zone if _is_zone(zone) else None
 
 
 def _version() -> str:

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import base64
 import hashlib
+import html
 import html.parser
 import json
 import re
@@ -192,6 +193,20 @@ def test_html_escapes_user_text_and_embeds_the_pictures(qtbot, tmp_path, recordi
                                                "p", "b", "br", "ul", "ol", "li", "table", "tr", "th", "td", "img"}
     for caution in CAUTIONS:
         assert caution.replace("'", "&#x27;") in text
+
+
+def test_severity_zone_comes_with_its_caution(qtbot, recording_path):
+    from dataclasses import replace
+
+    from dsp import severity
+
+    inp, _ = collect(recording_path)
+    assert "Severity zone" not in report_html(inp) and severity.CAUTION not in report_html(inp)
+    zone = severity.velocity_zone(5.0, group="group 2", foundation="rigid")
+    assert zone.zone == "D"                                # 4.5 mm/s is the C/D limit, group 2 rigid (dsp.severity, from memory)
+    text = report_html(replace(inp, severity=zone))
+    assert "Severity zone (ISO 20816-3)" in text and "zone D" in text
+    assert html.escape(severity.CAUTION) in text           # the zone is never shown without its caution
 
 
 def test_report_html_function_escapes_every_text_field(qtbot, recording_path):
