@@ -249,7 +249,7 @@ class DocumentActions(QObject):
         if event.kind == "recording":
             self.session.recording_sha256 = None
             self.window.banner.set_part("recording_changed", "warning", None)
-            QTimer.singleShot(0, self._offer_recovery_for_recording)
+            QTimer.singleShot(0, self, self._offer_recovery_for_recording)   # not called once closed
 
     def _on_analysis(self, analysis: Any) -> None:
         """Remember the recording's SHA-256; flag it when it differs from the session's."""
