@@ -223,7 +223,7 @@ def _window(qtbot, tmp_path, name):
     return window
 
 
-def test_window_saves_reopens_and_recovers_a_session(qtbot, tmp_path):
+def test_window_saves_reopens_and_recovers_a_session(qtbot, tmp_path, monkeypatch):
     import dataclasses
 
     recording = _simulated(tmp_path)
@@ -277,6 +277,12 @@ def test_window_saves_reopens_and_recovers_a_session(qtbot, tmp_path):
     assert second.document.findings.edit.toPlainText().startswith("Local damage")
     assert second.document.gallery.captions() == ["spectrum with the GMF note"]
     assert second.document.autosaver.dirty                # recovered work is unsaved work
+    # the recovery dialog: answering No discards the autosave and changes nothing
+    from PySide6.QtWidgets import QMessageBox
+
+    declined = session_store.write_autosave(second.session, tmp_path / "declined.autosave.json")
+    monkeypatch.setattr(QMessageBox, "question", staticmethod(lambda *a, **k: QMessageBox.StandardButton.No))
+    assert not second.document.offer_recovery(declined) and not declined.exists()
     report = second.document.write_report(tmp_path / "job.html")
     assert "Local damage on the output gear" in report.read_text(encoding="utf-8")
     second.runner.shutdown()
