@@ -308,6 +308,9 @@ def load_model(path: str | Path) -> GearTrain:
         raise ModelError([Problem("", f"model file {str(path)!r} is not UTF-8 text; save it as UTF-8 TOML")]) from None
     except OSError as exc:
         raise ModelError([Problem("", f"cannot read model file {str(path)!r} ({exc.strerror}); check the path and permissions")]) from None
+    if not text.strip():
+        raise ModelError([Problem("", f"model file {str(path)!r} is empty; write the gear-train model in it "
+                                      "(see demo_recordings/*.toml) or choose another file")])
     try:
         return loads_model(text)
     except ModelError as exc:

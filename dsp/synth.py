@@ -350,7 +350,7 @@ def _find_gear(train, orders, on: str) -> _Gear:
 # ---------------------------------------------------------------------------
 
 
-def _check(train, rpm, duration_s, fs, faults, speed, speed_variation_pct, missing_tach_pct):
+def _check(train, rpm, duration_s, fs, faults, speed, speed_variation_pct, missing_tach_pct, noise_g=0.0):
     if not train.shafts:
         raise ModelError([Problem("shafts", "the model has no shafts; add at least one [[shafts]] block")])
     if speed not in SPEEDS:
@@ -365,6 +365,8 @@ def _check(train, rpm, duration_s, fs, faults, speed, speed_variation_pct, missi
         raise AnalysisError(f"{speed_variation_pct=} must be between 0 and 50 percent")
     if not (0 <= missing_tach_pct <= 100):
         raise AnalysisError(f"{missing_tach_pct=} must be between 0 and 100 percent")
+    if not (math.isfinite(noise_g) and noise_g >= 0):
+        raise AnalysisError(f"{noise_g=} must be an RMS noise of 0 g or more")
     for f in faults:
         if not isinstance(f, Fault):
             raise AnalysisError(f"faults must be Fault objects, got {f!r}")
@@ -493,7 +495,7 @@ def simulate(train, *, rpm: float | None = None, duration_s: float = 10.0, fs: f
     faults = tuple(faults)
     if rpm is None:
         rpm = train.tach.nominal_rpm
-    _check(train, rpm, duration_s, fs, faults, speed, speed_variation_pct, missing_tach_pct)
+    _check(train, rpm, duration_s, fs, faults, speed, speed_variation_pct, missing_tach_pct, noise_g)
     reference = train.tach.shaft or train.shafts[0].name
     names = train.shaft_names()
     if reference not in names:

@@ -52,6 +52,37 @@ def _parse_size(text: str) -> tuple[int, int]:
     return w, h
 
 
+def _choose_platform(*, headless_ok: bool) -> None:
+    """Make sure Qt has somewhere to draw before it starts (Qt aborts the process otherwise).
+
+    On Linux without ``DISPLAY`` or ``WAYLAND_DISPLAY`` (a server, an ssh session)
+    and no ``QT_QPA_PLATFORM`` chosen: a ``--screenshot`` run draws offscreen; an
+    interactive run stops with one line that says what to do.
+    """
+    from dsp.errors import GearbenchError
+
+    if not sys.platform.startswith("linux") or os.environ.get("QT_QPA_PLATFORM"):
+        return
+    if os.environ.get("DISPLAY") or os.environ.get("WAYLAND_DISPLAY"):
+        return
+    if headless_ok:
+        os.environ["QT_QPA_PLATFORM"] = "offscreen"
+        return
+    raise GearbenchError("no display to open the window on (DISPLAY and WAYLAND_DISPLAY are unset); run gearbench "
+                         "in a desktop session, or use --screenshot PATH to draw the views without a display")
+
+
+#: Qt notices that say nothing to the user (the offscreen plugin's missing window-manager hints).
+_QT_NOISE = ("propagateSizeHints",)
+
+
+def _qt_message(mode, context, message: str) -> None:
+    """Qt's messages on stderr as Qt prints them, less the known harmless notices."""
+    if any(n in message for n in _QT_NOISE):
+        return
+    print(message, file=sys.stderr)
+
+
 class _Timer:
     """Prints ``gearbench-timing {"event": ..., "t": wall-clock s}`` lines when enabled."""
 
@@ -83,8 +114,11 @@ def run(args) -> int:
         if model is None and not recording.with_suffix(".toml").is_file():
             raise GearbenchError(f"no model for {recording.name}: put {recording.stem}.toml beside it or pass --model")
 
-    from PySide6.QtCore import QTimer
+    _choose_platform(headless_ok=screenshot is not None)
+    from PySide6.QtCore import QTimer, qInstallMessageHandler
     from PySide6.QtWidgets import QApplication
+
+    qInstallMessageHandler(_qt_message)
 
     app = QApplication.instance() or QApplication([sys.argv[0]])
     app.setApplicationName("gearbench")

@@ -47,6 +47,25 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="percentage of tach pulses to leave out (default 0)")
 
 
+def _check_options(args: argparse.Namespace) -> None:
+    """Refuse out-of-range numbers naming the option the user typed (dsp names its parameters)."""
+    import math
+
+    from dsp.errors import AnalysisError
+
+    checks = (
+        ("--rpm", args.rpm, lambda v: v is None or v > 0, "a positive speed in rev/min"),
+        ("--duration", args.duration, lambda v: v > 0, "a positive length in seconds"),
+        ("--rate", args.rate, lambda v: v >= 1000, "a sample rate of at least 1000 Hz"),
+        ("--noise", args.noise, lambda v: v >= 0, "an RMS noise of 0 g or more"),
+        ("--speed-variation", args.speed_variation, lambda v: 0 <= v < 50, "a percentage from 0 to below 50"),
+        ("--missing-tach", args.missing_tach, lambda v: 0 <= v <= 100, "a percentage from 0 to 100"),
+    )
+    for option, value, ok, what in checks:
+        if value is not None and (not math.isfinite(value) or not ok(value)):
+            raise AnalysisError(f"{option} {value:g} is out of range; give {what}")
+
+
 def run(args: argparse.Namespace) -> int:
     from dsp.errors import AnalysisError, RecordingError
     from dsp.model import load_model
@@ -59,6 +78,7 @@ def run(args: argparse.Namespace) -> int:
         raise RecordingError(f"folder {str(out.parent)!r} does not exist; create it or choose another output")
     if (args.fault is None) != (args.on is None):
         raise AnalysisError("--fault and --on go together; give both (e.g. --fault tooth --on input) or neither")
+    _check_options(args)
     train = load_model(args.model)
     rpm = args.rpm if args.rpm is not None else train.tach.nominal_rpm
     if rpm is None:
