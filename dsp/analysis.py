@@ -291,6 +291,84 @@ def _smooth_length(n: int) -> int:
     return int(best)
 
 
+def _smooth_floor(n: int) -> int:
+    """Largest 2^a 3^b 5^c <= n (n >= 1)."""
+    best = 1
+    p2 = 1
+    while p2 <= n:
+        p3 = p2
+        while p3 <= n:
+            p5 = p3
+            while p5 * 5 <= n:
+                p5 *= 5
+            best = max(best, p5)
+            p3 *= 3
+        p2 *= 2
+    return best
+
+
+#: Revolutions per order-spectrum segment at most (resolution 1/2048 order is
+#: far finer than any sideband spacing of a real train); longer records are
+#: processed in chunks and power-averaged so the cost grows linearly.
+ORDER_SEGMENT_REVS = 2048
+
+
+def _sub_profile(profile, t0: float, t1: float):
+    """The speed profile over ``t0..t1`` (s, same clock as ``profile``), with time 0 at ``t0``.
+
+    The knots inside the span are kept and the span's ends added; the angle origin
+    moves to ``t0``, which a power spectrum does not see.
+    """
+    from .tach import SpeedProfile
+
+    knots = getattr(profile, "knot_times_s", None)
+    knots = np.asarray(profile.times_s if knots is None else knots)
+    inner = knots[(knots > t0) & (knots < t1)]
+    t = np.concatenate([[t0], inner, [t1]])
+    return SpeedProfile.from_knots(t - t0, profile.angle_rev(t), shaft=profile.shaft, source=profile.source)
+
+
+def _order_spectrum(x, fs: float, profile, max_order: float):
+    """Order spectrum of the reference shaft (Hann), segment lengths chosen for fast FFTs.
+
+    Segments of ``R`` revolutions (a 2^a 3^b 5^c number, at most
+    ``ORDER_SEGMENT_REVS``) are power-averaged with 50 % overlap
+    (``dsp.orders.order_spectrum``); a record longer than ``2.5 R`` revolutions is
+    cut into chunks of about ``2 R`` revolutions whose spectra are power-averaged
+    too, so the time grows linearly with the record.
+    """
+    import dataclasses
+
+    from .errors import AnalysisError
+    from .orders import order_spectrum
+
+    total = float(profile.n_revs)
+    seg = _smooth_floor(max(1, min(int(total) - 3, ORDER_SEGMENT_REVS)))
+    if total <= 2.5 * seg:
+        try:
+            return order_spectrum(x, fs, profile, max_order=max_order, order_resolution=1.0 / seg, window="hann")
+        except AnalysisError:  # the resampler's edge margins left fewer revolutions: use them all
+            return order_spectrum(x, fs, profile, max_order=max_order, window="hann")
+    n_chunks = int(total // (2 * seg))
+    edges = np.linspace(0.0, total, n_chunks + 1)
+    power = None
+    n_avg = 0
+    first = None
+    for a0, a1 in zip(edges[:-1], edges[1:]):
+        # profile times share the signal's clock (sample i at i / fs); angle 0 is the first pulse
+        i0 = max(0, int(math.floor(float(profile.time_s(a0)) * fs)))
+        i1 = min(x.size, int(math.ceil(float(profile.time_s(a1)) * fs)) + 1)
+        sub = _sub_profile(profile, i0 / fs, (i1 - 1) / fs)
+        part = order_spectrum(x[i0:i1], fs, sub, max_order=max_order, order_resolution=1.0 / seg, window="hann")
+        p = np.asarray(part.amplitude, dtype=np.float64) ** 2 * part.n_averages
+        power = p if power is None else power + p
+        n_avg += part.n_averages
+        first = first or part
+    amp = np.sqrt(power / n_avg).astype(np.asarray(first.amplitude).dtype)
+    amp.setflags(write=False)
+    return dataclasses.replace(first, amplitude=amp, n_averages=n_avg)
+
+
 def _low_band(full, f_keep_hz: float):
     """The band 0..f_keep_hz of the shared rfft as the rfft of a shorter, decimated signal.
 
@@ -607,9 +685,7 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
     del full, low_full  # everything that needs the full-length rfft has it now
 
     step(0.3, "order spectrum")
-    from .orders import order_spectrum
-
-    ospec = order_spectrum(lx, lfs, profile, max_order=max_order, window="hann")
+    ospec = _order_spectrum(lx, lfs, profile, max_order)
     del lx
 
     tsas = _tsa_step(x, fs, profile, orders, table, model, settings, warn, step)

@@ -140,3 +140,16 @@ def test_speed_variation_without_the_tach():
     assert a.speed.source == "estimated"
     assert (a.speed.max_hz - a.speed.min_hz) / a.speed.mean_hz == pytest.approx(0.16, abs=0.05)  # README 06: +-8 %
     assert (a.suspects[0].component, a.suspects[0].kind) == ("shaft:intermediate", "localized tooth damage")
+
+
+def test_route_recording_without_tach(results):
+    a = results("07_no_tach_route")
+    # README 07: no tach; speed estimated from the stage 1 mesh, 1455.2 rpm (2 % below the
+    # 1485 rpm nameplate), range about 1448 to 1461 rpm; suspect shaft:input, local tooth damage
+    assert a.speed.source == "estimated"
+    assert a.speed.mean_hz * 60 == pytest.approx(1455.2, abs=1.5)
+    assert 60 * a.speed.min_hz == pytest.approx(1448.0, abs=3) and 60 * a.speed.max_hz == pytest.approx(1460.8, abs=3)
+    assert any("estimated" in w and "1485" in w for w in a.warnings)
+    assert (a.suspects[0].component, a.suspects[0].kind) == ("shaft:input", "localized tooth damage")
+    # the frequencies follow the real speed: stage 1 GMF about 557.8 Hz, not 569.25 Hz
+    assert a.frequencies.meshes[0].gmf_hz == pytest.approx(557.8, abs=0.5)
