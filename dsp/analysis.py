@@ -328,7 +328,7 @@ def _sub_profile(profile, t0: float, t1: float):
     return SpeedProfile.from_knots(t - t0, profile.angle_rev(t), shaft=profile.shaft, source=profile.source)
 
 
-def _order_spectrum(x, fs: float, profile, max_order: float):
+def _order_spectrum(x, fs: float, profile, max_order: float, check: Callable[[], None] | None = None):
     """Order spectrum of the reference shaft (Hann), segment lengths chosen for fast FFTs.
 
     Segments of ``R`` revolutions (a 2^a 3^b 5^c number, at most
@@ -355,6 +355,8 @@ def _order_spectrum(x, fs: float, profile, max_order: float):
     n_avg = 0
     first = None
     for a0, a1 in zip(edges[:-1], edges[1:]):
+        if check is not None:
+            check()  # cancellation inside the long loop
         # profile times share the signal's clock (sample i at i / fs); angle 0 is the first pulse
         i0 = max(0, int(math.floor(float(profile.time_s(a0)) * fs)))
         i1 = min(x.size, int(math.ceil(float(profile.time_s(a1)) * fs)) + 1)
@@ -685,7 +687,7 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
     del full, low_full  # everything that needs the full-length rfft has it now
 
     step(0.3, "order spectrum")
-    ospec = _order_spectrum(lx, lfs, profile, max_order)
+    ospec = _order_spectrum(lx, lfs, profile, max_order, check=step.check)
     del lx
 
     tsas = _tsa_step(x, fs, profile, orders, table, model, settings, warn, step)
