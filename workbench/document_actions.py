@@ -252,7 +252,8 @@ class DocumentActions(QObject):
             QTimer.singleShot(0, self, self._offer_recovery_for_recording)   # not called once closed
 
     def _on_analysis(self, analysis: Any) -> None:
-        """Remember the recording's SHA-256; flag it when it differs from the session's."""
+        """Place the notes again (axes may have changed); remember or check the recording's SHA-256."""
+        self.annotations.refresh()
         sha = (getattr(analysis, "recording", None) or {}).get("sha256")
         if not sha:
             return
