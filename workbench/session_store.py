@@ -162,7 +162,7 @@ def session_to_document(session: Any) -> dict[str, Any]:
 
     Extra values come from the session's attributes of the same name (missing ones
     are written empty), so the document is complete whatever the session class
-    already writes itself.
+    already writes itself.  File paths are written absolute.
     """
     doc = dict(session.to_dict())
     for key, (_types, empty) in EXTRA_KEYS.items():
@@ -170,6 +170,9 @@ def session_to_document(session: Any) -> dict[str, Any]:
         if value is None:
             value = doc.get(key, _copy_empty(empty))
         doc[key] = _plain(value)
+    for key in ("recording_path", "model_path", "baseline_path"):
+        if isinstance(doc.get(key), str) and doc[key] and not Path(doc[key]).is_absolute():
+            doc[key] = str(Path(doc[key]).resolve())   # a session opened from another folder still finds them
     doc["schema"] = SCHEMA
     return doc
 
