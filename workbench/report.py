@@ -55,6 +55,7 @@ CAUTIONS = (
 SUSPECTS_LABEL = "an aid to the analyst's judgement, not a verdict"
 DEFAULT_VIEWS = ("spectrum", "tsa", "envelope")
 DEFAULT_SIZE_PX = (1000, 520)
+MESH_SPAN = 3.5          # the default spectrum picture reaches this many times the highest mesh frequency
 
 #: One line on what each overall indicator means (common practice; sources in the text).
 OVERALL_MEANINGS = {
@@ -154,12 +155,28 @@ def default_images(analysis: Any, recording: Any = None, *, size_px: tuple[int, 
     shaft = most_suspect_shaft(analysis)
     session = Session(model=analysis.model, settings=analysis.settings)
     session.selected_shaft = shaft
-    images = []
+    table = analysis.frequencies
+    meshes_hz = [m.gmf_hz for m in getattr(table, "meshes", ()) or ()]
+    meshes_hz += [p.mesh_hz for p in getattr(table, "planetary", ()) or ()]
+    top_hz = MESH_SPAN * max(meshes_hz) if meshes_hz else None
+    nyquist_hz = 0.5 * float(analysis.recording.get("sample_rate_hz", 0.0) or 0.0)
+    if top_hz is not None and (not nyquist_hz or top_hz < nyquist_hz):
+        session.set_view_options(spectrum_zoom_hz=(0.0, top_hz))
+    captions = {
+        "spectrum": ("Amplitude spectrum" + (f" up to {top_hz:.0f} Hz ({MESH_SPAN:g} x the highest gear mesh "
+                                             "frequency)" if session.view_options.spectrum_zoom_hz else "")
+                     + f", shaft {shaft} selected, with the model's frequency lines."),
+        "tsa": f"Time-synchronous average of shaft {shaft} (the shaft of the first suspect) over one revolution, "
+               "with one tick per tooth of each gear on it.",
+        "envelope": "Envelope spectrum of the band in the header; marks at the shaft rate and its bearings' "
+                    "defect frequencies.",
+    }
     titles = {"spectrum": "Spectrum", "tsa": f"TSA of shaft {shaft}", "envelope": "Envelope spectrum"}
+    images = []
     for view in DEFAULT_VIEWS:
         recipe = snapshot.build_recipe(session=session, analysis=analysis, view=view, size_px=size_px)
         png = _png_bytes(snapshot.render(recipe, analysis, recording))
-        images.append(ReportImage(titles[view], png, caption="", view=view))
+        images.append(ReportImage(titles[view], png, caption=captions[view], view=view))
     return images
 
 
