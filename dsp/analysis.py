@@ -329,26 +329,22 @@ def _sub_profile(profile, t0: float, t1: float):
 
 
 def _order_spectrum(x, fs: float, profile, max_order: float, check: Callable[[], None] | None = None):
-    """Order spectrum of the reference shaft (Hann), segment lengths chosen for fast FFTs.
+    """Order spectrum of the reference shaft (Hann window, ``dsp.orders.order_spectrum``).
 
-    Segments of ``R`` revolutions (a 2^a 3^b 5^c number, at most
-    ``ORDER_SEGMENT_REVS``) are power-averaged with 50 % overlap
-    (``dsp.orders.order_spectrum``); a record longer than ``2.5 R`` revolutions is
-    cut into chunks of about ``2 R`` revolutions whose spectra are power-averaged
-    too, so the time grows linearly with the record.
+    Up to ``2.5 R`` revolutions (``R = ORDER_SEGMENT_REVS``) one segment holds every
+    whole revolution.  A longer record is cut into chunks of about ``2 R``
+    revolutions, each power-averaged over segments of ``R`` revolutions with 50 %
+    overlap, and the chunks are power-averaged too, so the time grows linearly
+    with the record and the resolution stays ``1/R`` order.
     """
     import dataclasses
 
-    from .errors import AnalysisError
     from .orders import order_spectrum
 
     total = float(profile.n_revs)
-    seg = _smooth_floor(max(1, min(int(total) - 3, ORDER_SEGMENT_REVS)))
-    if total <= 2.5 * seg:
-        try:
-            return order_spectrum(x, fs, profile, max_order=max_order, order_resolution=1.0 / seg, window="hann")
-        except AnalysisError:  # the resampler's edge margins left fewer revolutions: use them all
-            return order_spectrum(x, fs, profile, max_order=max_order, window="hann")
+    if total <= 2.5 * ORDER_SEGMENT_REVS:  # one segment of every whole revolution (finest resolution)
+        return order_spectrum(x, fs, profile, max_order=max_order, window="hann")
+    seg = _smooth_floor(ORDER_SEGMENT_REVS)
     n_chunks = int(total // (2 * seg))
     edges = np.linspace(0.0, total, n_chunks + 1)
     power = None
