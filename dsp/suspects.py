@@ -32,13 +32,16 @@ References
    gear-signal chapter (sidebands and harmonic growth with wear).
 .. [4] R. B. Randall, J. Antoni, "Rolling element bearing diagnostics - A
    tutorial", Mech. Syst. Signal Process. 25 (2011) 485-520.
+.. [5] N. S. Swansson, "Application of vibration signal analysis techniques to
+   signal monitoring", Conf. Friction and Wear in Engineering, IEAust, 1980
+   (energy ratio; bibliographic details from memory).
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Iterable, Mapping, Sequence
+from typing import Mapping, Sequence
 
 import numpy as np
 
@@ -559,8 +562,9 @@ def rank_suspects(
     * bearing = ``0.5 ramp(clear harmonics; 1, 3) + 0.5 ramp(excess dB; 12, 30)``,
       halved with fewer than two clear harmonics, halved again when a shaft
       family 20 dB stronger dominates the envelope, halved again when the
-      envelope resolution is coarser than the slip window; cage x 0.8; inner race weighted by
-      shaft-rate sidebands, rolling element by cage-rate sidebands; of two
+      envelope resolution is coarser than the slip window; cage x 0.8; inner
+      race weighted by shaft-rate sidebands, rolling element by cage-rate
+      sidebands; of two
       defect frequencies of one bearing claiming the same lines, the farther
       one is weighted by 0.7.
 
