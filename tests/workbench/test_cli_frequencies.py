@@ -117,3 +117,16 @@ def test_command_starts_without_scipy_or_qt():
     assert res.returncode == 0
     assert res.stderr.strip() == ""       # design page: light commands avoid heavy imports
     assert json.loads(res.stdout)["meshes"][0]["gmf_hz"] == pytest.approx(2000.0)
+
+
+def test_rpm_defaults_to_the_nominal_speed_of_the_model(tmp_path, capsys):
+    text = Path(PAIR).read_text(encoding="utf-8")
+    assert main(["frequencies", PAIR, "--json"]) == 2          # pair_40_15 has no nominal_rpm
+    assert "give the speed with --rpm" in capsys.readouterr().err
+    p = tmp_path / "nominal.toml"
+    p.write_text(text.replace("[tach]", "[tach]\nnominal_rpm = 3000.0", 1), encoding="utf-8")
+    assert main(["frequencies", str(p), "--json"]) == 0
+    d = json.loads(capsys.readouterr().out)
+    assert d["meshes"][0]["gmf_hz"] == pytest.approx(2000.0, rel=1e-9)   # domain reference 1.1: 40 x 50 Hz
+    assert main(["frequencies", str(p), "--shaft", "output"]) == 2      # the nominal speed is the tach shaft's
+    assert "give --rpm R for 'output'" in capsys.readouterr().err

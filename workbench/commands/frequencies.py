@@ -1,9 +1,10 @@
-"""``gearbench frequencies MODEL --rpm R [--shaft NAME] [--json]``.
+"""``gearbench frequencies MODEL [--rpm R] [--shaft NAME] [--json]``.
 
 Prints every characteristic frequency of a gear-train model at one speed: shaft
 rates, gear mesh frequencies with hunting-tooth and assembly-phase frequencies,
 planetary-stage frequencies and bearing defect frequencies, in Hz, cycles per
-minute and orders of the reference shaft.  No Qt, no scipy: it starts fast.
+minute and orders of the reference shaft.  Without ``--rpm`` the model's
+``tach.nominal_rpm`` is used.  No Qt, no scipy: it starts fast.
 """
 
 from __future__ import annotations
@@ -17,8 +18,8 @@ HELP = "every characteristic frequency of a gear-train model at a speed"
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("model", metavar="MODEL", help="gear-train model file (TOML)")
-    parser.add_argument("--rpm", type=float, required=True,
-                        help="speed of the reference shaft in rev/min")
+    parser.add_argument("--rpm", type=float, default=None,
+                        help="speed of the reference shaft in rev/min (default: the model's tach.nominal_rpm)")
     parser.add_argument("--shaft", metavar="NAME", default=None,
                         help="reference shaft that turns at --rpm (default: the shaft the tach watches)")
     parser.add_argument("--json", action="store_true", help="print JSON instead of a table")
@@ -90,13 +91,22 @@ def run(args: argparse.Namespace) -> int:
     from dsp.model import load_model, model_warnings
     import sys
 
-    if not (math.isfinite(args.rpm) and args.rpm > 0):
-        raise GearbenchError(f"--rpm must be a positive speed in rev/min, got {args.rpm:g}")
+    rpm = args.rpm
+    if rpm is not None and not (math.isfinite(rpm) and rpm > 0):
+        raise GearbenchError(f"--rpm must be a positive speed in rev/min, got {rpm:g}")
     train = load_model(args.model)
     if args.shaft is not None and args.shaft not in train.shaft_names():
         raise GearbenchError(f"--shaft {args.shaft!r} is not a shaft of the model; choose one of "
                              f"{', '.join(train.shaft_names())}")
-    table = frequency_table(train, args.rpm / 60.0, args.shaft)
+    if rpm is None:
+        nominal, tach_shaft = train.tach.nominal_rpm, train.tach.shaft
+        if nominal is None:
+            raise GearbenchError("the model has no tach.nominal_rpm; give the speed with --rpm R")
+        if args.shaft is not None and args.shaft != tach_shaft:
+            raise GearbenchError(f"tach.nominal_rpm is the speed of {tach_shaft!r}, not of {args.shaft!r}; "
+                                 f"give --rpm R for {args.shaft!r} or leave out --shaft")
+        rpm = float(nominal)
+    table = frequency_table(train, rpm / 60.0, args.shaft)
     warnings = [str(p) for p in model_warnings(train)]
     if args.json:
         d = table.to_json_dict()
