@@ -941,6 +941,8 @@ def _matched_axes(a: Analysis):
 
 
 def _json_dict(a: Analysis) -> dict[str, Any]:
+    from .indicators import TSA_KEYS
+
     freq = a.frequencies.to_json_dict()
     sp = a.speed
     env = a.envelope
@@ -965,7 +967,7 @@ def _json_dict(a: Analysis) -> dict[str, Any]:
                         velocity_band_hz=list(a.settings.velocity_band_hz)),
         "tsa": [
             {"shaft": t.shaft, "averages": t.n_revs, "shaft_hz": t.shaft_hz, "samples_per_rev": t.samples_per_rev,
-             **{k: t.indicators.get(k) for k in ("rms", "kurtosis", "fm0", "fm4", "na4", "m6a", "m8a", "er")}}
+             **{k: t.indicators.get(k) for k in TSA_KEYS}}
             for t in a.tsa
         ],
         "sidebands": [

@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable, Sequence
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -46,9 +47,50 @@ __all__ = [
     "sideband_index",
     "sideband_level_factor",
     "order_amplitude",
+    "IndicatorInfo",
+    "TSA_INDICATORS",
+    "TSA_KEYS",
 ]
 
 NAN = float("nan")
+
+
+@dataclass(frozen=True)
+class IndicatorInfo:
+    """What one indicator is, for tables, the report and the baseline comparison.
+
+    ``key`` is the name in ``ShaftTSA.indicators`` and in the JSON output;
+    ``healthy`` is the value of a healthy gear where one is known (Gaussian
+    difference signal), else ``None``.
+    """
+
+    key: str
+    label: str
+    meaning: str
+    healthy: float | None = None
+
+
+#: The per-shaft TSA indicators, in display order.  Adding an indicator: write its
+#: function here, compute it in ``dsp.analysis`` (``_shaft_tsa``) and add a row here;
+#: the results panel, the command line and the report read this table.
+TSA_INDICATORS: tuple[IndicatorInfo, ...] = (
+    IndicatorInfo("rms", "RMS", "RMS of the time-synchronous average of the shaft"),
+    IndicatorInfo("kurtosis", "kurtosis",
+                  "kurtosis of the average; rises with a local event once per revolution", 3.0),
+    IndicatorInfo("fm0", "FM0", "peak-to-peak of the average over the mesh harmonic amplitudes; "
+                  "rises with heavy wear or a major defect (Stewart 1977)"),
+    IndicatorInfo("fm4", "FM4", "kurtosis of the difference signal; about 3 for a healthy gear, "
+                  "rises with a local tooth defect (Stewart 1977)", 3.0),
+    IndicatorInfo("na4", "NA4", "kurtosis of the residual signal over the variance averaged along "
+                  "the run; tracks a defect as it grows (Zakrajsek et al. 1993)", 3.0),
+    IndicatorInfo("m6a", "M6A", "sixth moment of the difference signal; about 15 when healthy, "
+                  "more sensitive to peaks than FM4 (Martin 1989)", 15.0),
+    IndicatorInfo("m8a", "M8A", "eighth moment of the difference signal; about 105 when healthy, "
+                  "more sensitive still (Martin 1989)", 105.0),
+    IndicatorInfo("er", "ER", "energy ratio: RMS of the difference signal over RMS of the regular "
+                  "meshing; rises with heavy distributed wear (Swansson 1980)"),
+)
+TSA_KEYS: tuple[str, ...] = tuple(i.key for i in TSA_INDICATORS)
 
 
 def _vec(x, name: str = "x") -> np.ndarray:

@@ -43,6 +43,7 @@ from pathlib import Path
 from typing import Any
 
 from dsp.errors import GearbenchError
+from dsp.indicators import TSA_INDICATORS
 
 #: The cautions every report ends with.
 CAUTIONS = (
@@ -65,17 +66,8 @@ OVERALL_MEANINGS = {
     "kurtosis": "peakedness of the signal; about 3 for Gaussian noise, higher when impacts are present",
     "velocity_rms_mm_s": "broadband velocity RMS, the quantity the ISO 20816 evaluation zones use",
 }
-#: One line on what each TSA indicator means (Stewart 1977; Zakrajsek et al. 1993; Martin 1989; Swansson 1980).
-TSA_MEANINGS = {
-    "rms": "RMS of the time-synchronous average of the shaft",
-    "kurtosis": "kurtosis of the average; rises with a local event once per revolution",
-    "fm0": "peak-to-peak of the average over the mesh harmonic amplitudes; rises with heavy wear or a major defect (Stewart 1977)",
-    "fm4": "kurtosis of the difference signal; about 3 for a healthy gear, rises with a local tooth defect (Stewart 1977)",
-    "na4": "kurtosis of the residual signal over the variance averaged along the run; tracks a defect as it grows (Zakrajsek et al. 1993)",
-    "m6a": "sixth moment of the difference signal; about 15 when healthy, more sensitive to peaks than FM4 (Martin 1989)",
-    "m8a": "eighth moment of the difference signal; about 105 when healthy, more sensitive still (Martin 1989)",
-    "er": "energy ratio: RMS of the difference signal over RMS of the regular meshing; rises with heavy distributed wear (Swansson 1980)",
-}
+#: One line on what each TSA indicator means (sources in dsp.indicators.TSA_INDICATORS).
+TSA_MEANINGS = {info.key: info.meaning for info in TSA_INDICATORS}
 
 
 class ReportError(GearbenchError):

@@ -15,13 +15,13 @@ from PySide6.QtGui import QColor
 from PySide6.QtWidgets import (QAbstractItemView, QGroupBox, QHeaderView, QLabel, QListWidget,
                                QListWidgetItem, QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget)
 
+from dsp.indicators import TSA_KEYS
 from workbench import theme
 
 OVERALL_KEYS = (
     ("rms", "RMS"), ("peak", "peak"), ("crest_factor", "crest factor"), ("kurtosis", "kurtosis"),
     ("velocity_rms_mm_s", "velocity RMS (mm/s)"), ("clipped", "clipped"),
 )
-TSA_KEYS = ("rms", "kurtosis", "fm0", "fm4", "na4", "m6a", "m8a", "er")
 SIDEBAND_COLUMNS = (
     ("mesh", "mesh"), ("harmonic", "GMF×"), ("carrier_hz", "carrier Hz"), ("owner_shaft", "owner shaft"),
     ("owner_score", "owner score"), ("spacing_hz", "spacing Hz"), ("n_found", "sidebands"),

@@ -93,6 +93,14 @@ def test_json_has_every_design_key(healthy):
     assert len(d["sidebands"]) == 2 * 3  # two meshes x n_mesh_harmonics (Settings default 3)
 
 
+def test_every_shaft_reports_the_registered_tsa_indicators(healthy):
+    from dsp.indicators import TSA_KEYS
+
+    for item in healthy.tsa:
+        assert tuple(item.indicators) == TSA_KEYS
+    assert all(set(TSA_KEYS) <= set(row) for row in healthy.to_json_dict()["tsa"])
+
+
 def test_speed_and_frequencies_follow_the_tach(healthy):
     # simulator truth: 1500 rpm steady; domain reference sec. 1.3: f2 = 8.19672, f3 = 2.78379 Hz,
     # GMF1 = 500 Hz, GMF2 = 147.541 Hz
