@@ -368,10 +368,10 @@ class BaselineComparison:
         out = [f"Baseline {self.baseline_path} (sha256 {self.baseline_sha256[:12]}...), "
                f"{self.baseline_rpm:.1f} rpm against {self.current_rpm:.1f} rpm now; "
                f"compared in orders of shaft {self.reference_shaft}"]
-        out.append(f"  {'indicator':<22}{'shaft':<14}{'baseline':>10}{'now':>10}{'ratio':>8}{'dB':>8}  flag")
+        out.append(f"  {'indicator':<22}{'shaft':<14}{'baseline':>11}{'now':>11}{'ratio':>11}{'dB':>8}  flag")
         for r in self.indicators:
-            out.append(f"  {r.label:<22}{(r.shaft or '-'):<14}{_fmt(r.baseline):>10}{_fmt(r.now):>10}"
-                       f"{_fmt(r.change_ratio, '.2f'):>8}{_fmt(r.change_db, '+.1f'):>8}  {r.flag}")
+            out.append(f"  {r.label:<22}{(r.shaft or '-'):<14}{_fmt(r.baseline):>11}{_fmt(r.now):>11}"
+                       f"{_fmt(r.change_ratio, '.3g'):>11}{_fmt(r.change_db, '+.1f'):>8}  {r.flag}")
         out.append("  (dB: 20 log10 of the ratio for amplitudes, RMS, crest factor, FM0, ER; "
                    "10 log10 for kurtosis, FM4, NA4*, M6A, M8A)")
         if self.grown:

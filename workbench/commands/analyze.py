@@ -6,8 +6,11 @@ suspects with their evidence, warnings) or the JSON document of
 ``Analysis.to_json_dict()``.  The model defaults to the TOML file beside the
 recording.  With ``--baseline B`` a healthy recording of the same gearbox is
 analysed too and compared (:func:`dsp.baseline.compare`): the JSON gets a
-``baseline`` object and the suspects are re-ranked with it.  No Qt is imported;
-scipy only when the analysis runs.
+``baseline`` object and the suspects are re-ranked with it.  The ``severity``
+object (and a readable line) gives the ISO 20816-3 evaluation zone of the
+broadband velocity for ``--group`` and ``--foundation`` (:mod:`dsp.severity`; the
+zone boundaries are quoted from memory), always with its caution.  No Qt is
+imported; scipy only when the analysis runs.
 """
 
 from __future__ import annotations
@@ -35,6 +38,14 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--baseline", metavar="B", default=None,
                         help="a healthy recording of the same gearbox to compare with (its model: the .toml "
                              "beside it, else the model of RECORDING)")
+    parser.add_argument("--group", choices=("group 1", "group 2"), default="group 2",
+                        help="machine group for the severity zone: 'group 1' large (300 kW to 50 MW), "
+                             "'group 2' medium (15 kW to 300 kW; default)")
+    parser.add_argument("--foundation", choices=("rigid", "flexible"), default="rigid",
+                        help="foundation class for the severity zone (default: rigid)")
+    parser.add_argument("--velocity-band", metavar=("LO", "HI"), type=float, nargs=2, default=None,
+                        help="band of the overall velocity in Hz (default 10 1000; the standard uses 2 1000 "
+                             "below about 600 rpm)")
     parser.add_argument("--json", action="store_true", help="print the analysis as JSON")
 
 
@@ -64,6 +75,13 @@ def format_summary(d: dict, baseline_lines: list[str] | None = None) -> str:
                f"{_num(ov['crest_factor'])}, kurtosis {_num(ov['kurtosis'])}, velocity "
                f"{_num(ov['velocity_rms_mm_s'])} mm/s RMS ({_num(lo, 'g')}-{_num(hi, 'g')} Hz)"
                + (", CLIPPED" if ov["clipped"] else ""))
+    sev = d.get("severity")
+    if sev:
+        b = sev["boundaries_mm_s"]
+        out.append(f"Severity (guidance): zone {sev['zone']} for {sev['group']}, {sev['foundation']} foundation "
+                   f"(A/B {b['A/B']:g}, B/C {b['B/C']:g}, C/D {b['C/D']:g} mm/s): {sev['meaning']}")
+        out.append(f"  source: {sev['source']}; {sev['boundary_rule']}")
+        out.append(f"  caution: {sev['caution']}")
     if d["tsa"]:
         out.append("TSA per shaft:")
         out.append(f"  {'shaft':<14}{'revs':>6}{'RMS':>10}{'kurt':>7}{'FM0':>7}{'FM4':>7}{'NA4':>7}"
@@ -135,6 +153,11 @@ def run(args: argparse.Namespace) -> int:
         if not (0 <= lo < hi):
             raise GearbenchError(f"--band {lo:g} {hi:g} is not a band; give LO < HI in Hz")
         settings = dataclasses.replace(settings, envelope_band_hz=(float(lo), float(hi)))
+    if args.velocity_band is not None:
+        lo, hi = args.velocity_band
+        if not (0 < lo < hi):
+            raise GearbenchError(f"--velocity-band {lo:g} {hi:g} is not a band; give 0 < LO < HI in Hz")
+        settings = dataclasses.replace(settings, velocity_band_hz=(float(lo), float(hi)))
     recording = read_recording(path)
     result = analyze(recording, train, settings)
     comparison = None
@@ -146,6 +169,10 @@ def run(args: argparse.Namespace) -> int:
     if comparison is not None:
         d["baseline"] = comparison.to_json_dict()
         d["suspects_without_baseline"] = without
+    from dsp.severity import velocity_zone
+
+    d["severity"] = velocity_zone(result.overall["velocity_rms_mm_s"], group=args.group,
+                                  foundation=args.foundation, band_hz=settings.velocity_band_hz).to_json_dict()
     if args.json:
         print(json.dumps(d, indent=2, allow_nan=False))
     else:
