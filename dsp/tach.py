@@ -30,6 +30,11 @@ SHORT_INTERVAL = 0.6
 MULTIPLE_TOLERANCE = 0.25
 #: Speed change between consecutive revolutions above which order tracking cannot follow.
 MAX_REV_CHANGE = 0.20
+#: A pulse narrower than this fraction of the median pulse width is a glitch (spike), not a
+#: mark on the shaft (common practice, no source); applied when the median width is at
+#: least GLITCH_MIN_MEDIAN_SAMPLES, so that narrow but genuine pulses are never judged.
+GLITCH_WIDTH = 0.25
+GLITCH_MIN_MEDIAN_SAMPLES = 8
 
 
 # ---------------------------------------------------------------------------------------------
@@ -130,6 +135,15 @@ def _entries(mask: np.ndarray) -> np.ndarray:
 
 def _schmitt_edges(y: np.ndarray, threshold: float, hysteresis: float) -> np.ndarray:
     """Sub-sample times (in samples) of rising threshold crossings of ``y`` with hysteresis."""
+    return _schmitt_pulses(y, threshold, hysteresis)[0]
+
+
+def _schmitt_pulses(y: np.ndarray, threshold: float, hysteresis: float) -> tuple[np.ndarray, np.ndarray]:
+    """Rising-edge times (samples, sub-sample) and pulse widths (samples, inf for the last open pulse).
+
+    The width of a pulse runs from its entry above the hysteresis band to the next
+    entry below it.
+    """
     upper = threshold + 0.5 * hysteresis
     lower = threshold - 0.5 * hysteresis
     above = y > upper
@@ -137,7 +151,7 @@ def _schmitt_edges(y: np.ndarray, threshold: float, hysteresis: float) -> np.nda
     up = _entries(above)
     down = _entries(below)
     if up.size == 0 or down.size == 0:
-        return np.empty(0)
+        return np.empty(0), np.empty(0)
     # Merge the two event lists; a rising edge is an entry above that follows an entry below.
     idx = np.concatenate((up, down))
     kind = np.concatenate((np.ones(up.size, bool), np.zeros(down.size, bool)))
@@ -147,7 +161,11 @@ def _schmitt_edges(y: np.ndarray, threshold: float, hysteresis: float) -> np.nda
     is_edge[1:] = kind[1:] & ~kind[:-1]
     edge_idx = idx[is_edge]
     if edge_idx.size == 0:
-        return np.empty(0)
+        return np.empty(0), np.empty(0)
+    nxt = np.searchsorted(down, edge_idx, side="right")
+    width = np.full(edge_idx.size, np.inf)
+    closed = nxt < down.size
+    width[closed] = down[nxt[closed]] - edge_idx[closed]
     # The threshold crossing that belongs to each edge: the last j < edge with
     # y[j] <= threshold < y[j+1] (it exists: the signal was below the band before).
     over = y > threshold
@@ -158,7 +176,7 @@ def _schmitt_edges(y: np.ndarray, threshold: float, hysteresis: float) -> np.nda
     y0 = y[j].astype(np.float64)
     y1 = y[j + 1].astype(np.float64)
     frac = (threshold - y0) / (y1 - y0)        # y1 > threshold >= y0, so y1 - y0 > 0
-    return j + np.clip(frac, 0.0, 1.0)
+    return j + np.clip(frac, 0.0, 1.0), width[ok]
 
 
 def _local_median(d: np.ndarray, half: int) -> np.ndarray:
@@ -312,7 +330,9 @@ def detect_pulses(x, fs, *, pulses_per_rev: int = 1, edge: str = "rising", thres
     Notes
     -----
     Edge times are the linear interpolation of the threshold crossing between the
-    two samples that straddle it.  Repair: an interval shorter than 0.6 times the
+    two samples that straddle it.  A pulse narrower than a quarter of the median
+    pulse width (median of 8 samples or more) is a spike, not a mark, and is
+    rejected first.  Repair: an interval shorter than 0.6 times the
     local median interval means an extra pulse; of its two pulses the one whose
     removal leaves an interval closest to the median is dropped.  An interval within
     0.25 of an integer multiple m >= 2 of the local median receives m-1 pulses evenly
@@ -356,10 +376,21 @@ def detect_pulses(x, fs, *, pulses_per_rev: int = 1, edge: str = "rising", thres
         raise TachError(f"{hysteresis=} must be >= 0 (signal units)")
 
     if edge == "rising":
-        edges = _schmitt_edges(x, thr, hyst)
+        edges, widths = _schmitt_pulses(x, thr, hyst)
     else:
-        edges = _schmitt_edges(np.negative(x), -thr, hyst)
+        edges, widths = _schmitt_pulses(np.negative(x), -thr, hyst)
     n_found = int(edges.size)
+    n_glitches = 0
+    finite_w = widths[np.isfinite(widths)]
+    if finite_w.size >= 3:
+        med_w = float(np.median(finite_w))
+        if med_w >= GLITCH_MIN_MEDIAN_SAMPLES:
+            glitch = widths < GLITCH_WIDTH * med_w
+            n_glitches = int(np.count_nonzero(glitch))
+            if n_glitches and edges.size - n_glitches >= 3:
+                edges = edges[~glitch]
+            else:
+                n_glitches = 0
     if n_found < 3:
         raise TachError(
             f"the tach channel gives {n_found} pulse{'s' if n_found != 1 else ''} (at least 3 needed); "
@@ -369,6 +400,7 @@ def detect_pulses(x, fs, *, pulses_per_rev: int = 1, edge: str = "rising", thres
 
     half = (max(15, 2 * ppr + 1) if window is None else max(3, int(window))) // 2
     t, n_rejected = _reject_extra(t, half)
+    n_rejected += n_glitches
     if t.size < 3:
         raise TachError(
             "after removing glitches fewer than 3 tach pulses remain; check the tach channel or, "

@@ -189,6 +189,31 @@ def test_missing_tach_pulses_are_inserted_where_the_truth_has_them():
     assert any(_says(w, "inserted", "check the tach") for w in p.warnings)
 
 
+def test_single_sample_spikes_on_the_tach_are_not_pulses(sim):
+    # 40 one-sample spikes to the high level over 74 revolutions: the speed must stay that of
+    # the simulation (constant 1485 rpm); the spikes are counted as rejected
+    x = np.array(sim.tach, dtype=np.float64)
+    rng = np.random.default_rng(31)
+    spikes = rng.choice(x.size, 40, replace=False)
+    x[spikes] = float(np.max(sim.tach))
+    p = detect_pulses(x, FS)
+    clean = detect_pulses(np.asarray(sim.tach), FS)
+    assert p.n_pulses == clean.n_pulses
+    # simulation truth: the same edge times as without the spikes
+    np.testing.assert_allclose(p.times_s, clean.times_s, atol=0.5 / FS)
+    assert p.n_rejected >= 30          # spikes landing inside a real pulse add no edge
+
+
+def test_narrow_genuine_pulses_are_kept():
+    # a keyphasor notch only 3 samples wide (median below the glitch-width floor): nothing rejected
+    n_rev, per_rev = 40, 1000
+    x = np.zeros(n_rev * per_rev)
+    for k in range(n_rev):
+        x[k * per_rev + 100:k * per_rev + 103] = 1.0
+    p = detect_pulses(x, FS)
+    assert p.n_pulses == n_rev and p.n_rejected == 0   # common practice, no source
+
+
 def test_flat_tach_with_nominal_speed_in_analyze_gives_an_actionable_error(tmp_path, sim):
     frames = _frames(sim)
     frames[:, 1] = 0.0

@@ -102,6 +102,10 @@ def files(tmp_path_factory):
     return out
 
 
+def _no_nan(token: str):
+    raise AssertionError(f"{token} in the JSON output")  # design.md: plain JSON, no NaN
+
+
 def _one_line_error(capsys, argv) -> str:
     code = main(argv)
     captured = capsys.readouterr()
@@ -156,7 +160,7 @@ WARN_CASES = {
 @pytest.mark.parametrize("case", list(WARN_CASES))
 def test_cli_partial_results_with_a_warning(files, capsys, case):
     assert main(["analyze", "--json", str(files[case])]) == 0
-    doc = json.loads(capsys.readouterr().out)
+    doc = json.loads(capsys.readouterr().out, parse_constant=_no_nan)
     assert any(all(w in x.lower() for w in WARN_CASES[case]) for x in doc["warnings"]), doc["warnings"]
     assert doc["speed"]["mean_rpm"] == pytest.approx(RPM, rel=2e-3)  # the simulated speed is still found
     assert doc["tsa"] and doc["overall"]["rms"] > 0
@@ -164,6 +168,17 @@ def test_cli_partial_results_with_a_warning(files, capsys, case):
         assert doc["overall"]["clipped"] is True
     assert main(["info", str(files[case])]) == 0   # info reads it too
     capsys.readouterr()
+
+
+def test_cli_info_warns_when_sensor_and_tach_are_swapped(files, tmp_path, capsys):
+    data, fs = sf.read(str(files["good"]))
+    swapped = tmp_path / "swapped.flac"
+    sf.write(str(swapped), data[:, ::-1], fs, subtype="PCM_24")
+    shutil.copy(files["good"].with_suffix(".toml"), swapped.with_suffix(".toml"))
+    assert main(["info", "--json", str(swapped)]) == 0
+    warnings = json.loads(capsys.readouterr().out)["warnings"]
+    # the mesh read as a tach: about 23 x the 1485 rpm nameplate (23-tooth pinion, README)
+    assert any("swapped" in w and "nominal_rpm" in w for w in warnings), warnings
 
 
 def test_cli_empty_or_broken_model_for_frequencies(files, tmp_path, capsys):

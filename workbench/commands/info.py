@@ -76,10 +76,28 @@ def _speed(rec, train, warnings: list[str]):
         if (pulses.n_repaired or pulses.n_rejected) and not any("inserted" in w for w in pulses.warnings):
             warnings.append(f"tach repaired: {pulses.n_repaired} pulse(s) inserted, "
                             f"{pulses.n_rejected} rejected out of {pulses.n_found} found")
-        return speed_profile(pulses, reference), pulses
+        profile = speed_profile(pulses, reference)
+        warnings.extend(nominal_mismatch(60.0 * profile.mean_hz, tach.nominal_rpm))
+        return profile, pulses
     if tach.nominal_rpm is not None:
         return _estimated(rec, train, reference, warnings), None
     return None, None
+
+
+#: A tach speed outside these ratios to tach.nominal_rpm is suspect (common practice, no source:
+#: induction motors run a few percent below synchronous speed, drives rarely beyond +-20 %).
+NOMINAL_RATIO = (0.8, 1.25)
+
+
+def nominal_mismatch(rpm: float, nominal_rpm: float | None) -> list[str]:
+    """A warning when the tach speed is far from the model's nominal speed (wrong channel or pulses/rev)."""
+    if nominal_rpm is None or not nominal_rpm > 0 or not math.isfinite(rpm):
+        return []
+    ratio = rpm / nominal_rpm
+    if NOMINAL_RATIO[0] <= ratio <= NOMINAL_RATIO[1]:
+        return []
+    return [f"the tach gives {rpm:.6g} rpm, {ratio:.3g} times tach.nominal_rpm {nominal_rpm:g}; check tach.channel "
+            "(are the sensor and tach channels swapped?) and tach.pulses_per_rev before trusting any frequency"]
 
 
 def _estimated(rec, train, reference: str, warnings: list[str]):
