@@ -65,3 +65,21 @@ def test_simulate_rejects_missing_speed_and_unknown_bearing(tmp_path, capsys):
     assert "unknown bearing 'NDE'" in capsys.readouterr().err
     assert main(["simulate", str(model), "--rpm", "900", "--fault", "wear", "-o", str(tmp_path / "x.flac")]) == 2
     assert "--on" in capsys.readouterr().err
+
+
+def test_simulate_without_tach_writes_one_channel_and_a_nominal_speed(tmp_path, capsys):
+    train, model = _model(tmp_path, nominal_rpm=1200.0)
+    out = tmp_path / "route.flac"
+    rc = main(["simulate", str(model), "--no-tach", "--rpm", "1176", "--duration", "0.5", "--rate", "8000",
+               "--seed", "6", "-o", str(out)])
+    assert rc == 0
+    assert "no tach" in capsys.readouterr().out
+    data, fs = soundfile.read(str(out), always_2d=True)
+    assert data.shape == (4000, 1)
+    written = load_model(out.with_suffix(".toml"))
+    # the model keeps the nameplate speed; the machine ran 2 % slower (what --rpm asked for)
+    assert written.tach.channel is None and written.tach.nominal_rpm == 1200.0
+    assert written.sensors[0].channel == 0
+    sim = simulate(train, rpm=1176, duration_s=0.5, fs=8000, seed=6)
+    np.testing.assert_allclose(data[:, 0] * written.sensors[0].scale, sim.acceleration_g,
+                               atol=written.sensors[0].scale * 2.0**-23)  # 24-bit quantisation

@@ -1,7 +1,7 @@
 """``gearbench simulate MODEL [--fault KIND --on NAME ...] -o OUT.flac``.
 
 Simulates a recording of the gear-train model (one accelerometer channel in g
-and one tach channel on the model's tach shaft) with :func:`dsp.synth.simulate`,
+and, unless ``--no-tach``, one tach channel on the model's tach shaft) with :func:`dsp.synth.simulate`,
 healthy or with one fault, and writes ``OUT.flac`` (24-bit) and ``OUT.toml`` (the
 model with its sensor and tach set to the simulated channels).
 """
@@ -45,6 +45,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="RMS sensor noise in g (default 0.03)")
     parser.add_argument("--missing-tach", metavar="PCT", type=float, default=0.0,
                         help="percentage of tach pulses to leave out (default 0)")
+    parser.add_argument("--no-tach", action="store_true",
+                        help="write the accelerometer channel only, like a route recording; the model "
+                             "written keeps nominal_rpm and has no tach channel")
 
 
 def _check_options(args: argparse.Namespace) -> None:
@@ -90,9 +93,10 @@ def run(args: argparse.Namespace) -> int:
     sim = simulate(train, rpm=rpm, duration_s=args.duration, fs=args.rate, faults=faults, speed=speed,
                    speed_variation_pct=args.speed_variation, seed=args.seed, noise_g=args.noise,
                    missing_tach_pct=args.missing_tach)
-    written = write_simulation(sim, out, train)
+    written = write_simulation(sim, out, train, with_tach=not args.no_tach)
     what = "healthy" if not faults else f"{args.severity} {args.fault} fault on {args.on!r}"
+    speed_text = (f"no tach, nominal {written.tach.nominal_rpm:g} rpm, running at {rpm:g} rpm" if args.no_tach
+                  else f"tach on {sim.reference_shaft!r} at {rpm:g} rpm")
     print(f"wrote {out} ({sim.duration_s:g} s at {sim.fs:g} Hz, {what}, "
-          f"full scale {written.sensors[0].scale:g} g, tach on {sim.reference_shaft!r} at {rpm:g} rpm) "
-          f"and {out.with_suffix('.toml')}")
+          f"full scale {written.sensors[0].scale:g} g, {speed_text}) and {out.with_suffix('.toml')}")
     return 0
