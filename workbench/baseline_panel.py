@@ -100,14 +100,16 @@ class BaselinePanel(QWidget):
         layout.setContentsMargins(4, 4, 4, 4)
 
         # --- comparison ---------------------------------------------------------
-        box = QGroupBox("Change since the baseline (in orders of the reference shaft)")
+        box = QGroupBox("Change since the baseline")
         inner = QVBoxLayout(box)
         inner.setContentsMargins(4, 4, 4, 4)
         self.baseline_label = QLabel(NO_BASELINE_TEXT)
         self.baseline_label.setWordWrap(True)
         self.baseline_label.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
-        self.show_overlay = QCheckBox("Show the baseline on the views (grey curves)")
+        self.show_overlay = QCheckBox("Baseline on the views (grey)")
         self.show_overlay.setChecked(True)
+        self.show_overlay.setToolTip("Show the baseline's order spectrum, TSA and envelope spectrum as grey curves "
+                                     "on the views; compared in orders of the reference shaft")
         self.show_overlay.setEnabled(False)
         self.show_overlay.toggled.connect(self.overlay_toggled)
         self.indicators = _table(INDICATOR_COLUMNS)
@@ -125,7 +127,7 @@ class BaselinePanel(QWidget):
         layout.addWidget(box, 3)
 
         # --- severity ------------------------------------------------------------
-        sbox = QGroupBox("Severity guidance: broadband casing velocity (ISO 20816-3 zones)")
+        sbox = QGroupBox("Severity guidance (ISO 20816-3)")
         form = QFormLayout(sbox)
         form.setContentsMargins(4, 4, 4, 4)
         self.band_lo = QDoubleSpinBox()
@@ -145,8 +147,10 @@ class BaselinePanel(QWidget):
         band_widget.setLayout(band_row)
         band_row.setContentsMargins(0, 0, 0, 0)
         self.group = QComboBox()
-        for g in severity.GROUPS:
-            self.group.addItem(f"{g}: {severity.GROUP_MEANINGS[g]}", g)
+        for i, g in enumerate(severity.GROUPS):
+            self.group.addItem(f"{g} ({'large' if g == 'group 1' else 'medium'})", g)
+            self.group.setItemData(i, severity.GROUP_MEANINGS[g], Qt.ItemDataRole.ToolTipRole)
+        self.group.setToolTip("; ".join(f"{g}: {severity.GROUP_MEANINGS[g]}" for g in severity.GROUPS))
         self.group.setCurrentIndex(severity.GROUPS.index("group 2"))
         self.foundation = QComboBox()
         for f in severity.FOUNDATIONS:
@@ -406,7 +410,12 @@ class BaselineController(QObject):
         self.panel = BaselinePanel()
         self.dock = QDockWidget("Baseline and severity", window)
         self.dock.setObjectName("baseline_dock")
-        self.dock.setWidget(self.panel)
+        from PySide6.QtWidgets import QScrollArea
+
+        scroll = QScrollArea()        # the dock never forces the window wider than the results dock
+        scroll.setWidgetResizable(True)
+        scroll.setWidget(self.panel)
+        self.dock.setWidget(scroll)
         self.dock.setFeatures(QDockWidget.DockWidgetFeature.DockWidgetMovable
                               | QDockWidget.DockWidgetFeature.DockWidgetFloatable)
         window.addDockWidget(Qt.DockWidgetArea.RightDockWidgetArea, self.dock)
