@@ -124,7 +124,6 @@ class BaselinePanel(QWidget):
         inner.addWidget(self.db_note)
         inner.addWidget(self.grown, 2)
         inner.addWidget(self.notes)
-        layout.addWidget(box, 3)
 
         # --- severity ------------------------------------------------------------
         sbox = QGroupBox("Severity guidance (ISO 20816-3)")
@@ -173,9 +172,11 @@ class BaselinePanel(QWidget):
         form.addRow("foundation", self.foundation)
         form.addRow("velocity RMS", self.velocity_label)
         form.addRow("zone", self.zone_label)
+        form.addRow(self.caution_label)          # right under the zone, so it is seen with it
         form.addRow("source", self.source_label)
-        form.addRow(self.caution_label)
+        # the severity box first: short, and its caution stays in sight above the long table
         layout.addWidget(sbox, 2)
+        layout.addWidget(box, 3)
 
     # --- public ---------------------------------------------------------------------
 
@@ -312,8 +313,10 @@ class BaselineOverlays:
             plot = getattr(views.get(name), "plot", None)
             if plot is None:
                 continue
-            item = pg.PlotDataItem(pen=pg.mkPen(BASELINE_COLOUR, width=1))
-            item.setZValue(-5)
+            colour = pg.mkColor(BASELINE_COLOUR)
+            colour.setAlpha(200)
+            item = pg.PlotDataItem(pen=pg.mkPen(colour, width=1))
+            item.setZValue(5)       # over the current curve, which shows wherever it rose above the baseline
             if name != "tsa":
                 item.setClipToView(True)
                 item.setDownsampling(auto=True, method="peak")
