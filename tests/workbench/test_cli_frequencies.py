@@ -130,3 +130,14 @@ def test_rpm_defaults_to_the_nominal_speed_of_the_model(tmp_path, capsys):
     assert d["meshes"][0]["gmf_hz"] == pytest.approx(2000.0, rel=1e-9)   # domain reference 1.1: 40 x 50 Hz
     assert main(["frequencies", str(p), "--shaft", "output"]) == 2      # the nominal speed is the tach shaft's
     assert "give --rpm R for 'output'" in capsys.readouterr().err
+
+
+def test_a_reader_that_stops_early_gets_no_traceback():
+    # `gearbench frequencies ... | head -1`: the pipe closes before the table is written
+    proc = subprocess.Popen([sys.executable, "-m", "workbench", "frequencies", PAIR, "--rpm", "3000", "--json"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    proc.stdout.close()
+    err = proc.stderr.read().decode()
+    proc.wait(timeout=60)
+    proc.stderr.close()
+    assert "Traceback" not in err and "BrokenPipeError" not in err, err  # common practice, no source
