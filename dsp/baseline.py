@@ -78,9 +78,10 @@ class Thresholds:
         the fourth, 2x is reached between healthy records).  Common practice,
         no source.
     drop_ratio : float
-        Any ratio indicator at or below ``1 / amplitude_ratio`` (or a moment
-        ``moment_delta`` below the baseline) is flagged ``"dropped"``: a large
-        fall is worth a look too (sensor moved, load changed).
+        A ratio indicator at or below ``drop_ratio`` times the baseline (0.5 =
+        -6 dB for amplitudes), or a kurtosis-type indicator ``moment_delta``
+        below it, is flagged ``"dropped"``: a large fall is worth a look too
+        (sensor moved, load changed).  Common practice, no source.
     growth_db : float
         A mesh harmonic or sideband family counts as grown at ``+growth_db``
         over the baseline (6 dB).  Common practice, no source.
@@ -100,15 +101,16 @@ class Thresholds:
         band onto a resonance) carrying the same run-out, not a change of the
         shaft that spaces it.  Common practice, no source.
     also_high_factor : float
-        Score factor of a localized-damage suspect whose FM4 or NA4 was already
-        at or above ``high_fm4`` in the baseline and whose FM4 did not grow
-        (0.5).  Common practice, no source.
+        Score factor (0.5) of a localized-damage suspect whose FM4 or NA4 was
+        already at or above ``high_fm4`` in the baseline and whose FM4 did not
+        grow, and of a wear suspect whose pattern the baseline already scored
+        at least half as high, with nothing grown.  Common practice, no source.
     growth_bonus : float
         Largest score added to a shaft suspect for growth since the baseline
         (0.25): to "localized tooth damage" in proportion to the FM4 rise
         (ramp from ``moment_delta`` to ``moment_delta + growth_span``), to
         "distributed wear or eccentricity" in proportion to the growth of ER
-        (ramp 6 to 18 dB) or of the shaft's families against their carriers
+        (ramp 6 to 18 dB) or of the shaft's families against their bands
         (ramp ``relative_db`` to ``relative_db + 12`` dB).  Alone it cannot
         lift a suspect over the default alarm threshold 0.5.  Common practice,
         no source.
@@ -790,7 +792,14 @@ def rerank_suspects(current, baseline, comparison_indicators: Sequence[Indicator
     * the evidence names what grew, or says that nothing did.
 
     Bearing suspects are kept as they are.  An aid to the analyst's judgement,
-    not a verdict.
+    not a verdict.  The weights are common practice, no source.
+
+    References
+    ----------
+    .. [1] R. M. Stewart, ISVR report MHM/R/10/77, 1977 (FM4: about 3 for a
+       healthy gear; a change from the gearbox's own value matters).
+    .. [2] R. B. Randall, *Vibration-based Condition Monitoring*, Wiley, 2011
+       (judging gear signals against the machine's own baseline and trend).
     """
     t = thresholds
     if threshold is None:
