@@ -136,7 +136,7 @@ def window(qtbot, tmp_path):
     w.runner.shutdown()
 
 
-def test_window_loads_a_baseline_and_overlays_it(qtbot, window):
+def test_window_loads_a_baseline_and_overlays_it(qtbot, window, tmp_path):
     with qtbot.waitSignal(window.analysis_shown, timeout=TIMEOUT_MS):
         window.open_recording(DEMO / "03_broken_tooth.flac")
     controller = window.baseline
@@ -147,7 +147,12 @@ def test_window_loads_a_baseline_and_overlays_it(qtbot, window):
         controller.load_baseline(DEMO / "01_healthy_baseline.flac")
     cmp = controller.comparison
     assert window.session.baseline_path == str(DEMO / "01_healthy_baseline.flac")
-    assert window.session.to_dict() is not None
+    from workbench import session_store
+
+    # the session file remembers the baseline (round trip through the saved document)
+    saved = session_store.save_session(window.session, tmp_path / "s.json")
+    loaded = session_store.load_session(saved, check_recording=False)
+    assert loaded.session.baseline_path == str(DEMO / "01_healthy_baseline.flac")
     # demo README: 03 is a broken tooth on the intermediate wheel; 01 is the healthy baseline
     assert cmp.indicator("fm4", "intermediate").flag == "grown"
     assert controller.panel.indicators.rowCount() == len(cmp.indicators)
