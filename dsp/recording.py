@@ -164,7 +164,22 @@ def read_recording(path) -> Recording:
             fmt = str(fh.format)
             subtype = str(fh.subtype)
             n_expected = int(fh.frames) if fh.seekable() else -1
-            data = _decode(fh, n_channels, n_expected)
+            progress = [0]
+            try:
+                data = _decode(fh, n_channels, n_expected, progress)
+            except (sf.LibsndfileError, RuntimeError, sf.SoundFileError) as exc:
+                if n_expected > 0:
+                    progress[0] = max(progress[0], _decodable_frames(name))
+                if progress[0] > 0 and n_expected > 0 and rate > 0:
+                    detail = getattr(exc, "error_string", None) or str(exc)
+                    raise RecordingError(
+                        f"recording {name} breaks off after {progress[0] / rate:.2f} s of the "
+                        f"{n_expected / rate:.2f} s its header announces ({detail}); the file is truncated or "
+                        "damaged - copy it again from the recorder or export it again"
+                    ) from exc
+                raise
+    except RecordingError:
+        raise
     except sf.LibsndfileError as exc:
         raise RecordingError(
             f"cannot decode recording {name} ({exc.error_string}); it is corrupt or not an audio file "
@@ -197,8 +212,30 @@ def read_recording(path) -> Recording:
     )
 
 
-def _decode(fh, n_channels: int, n_expected: int) -> np.ndarray:
-    """Decode an open SoundFile into a C-contiguous ``(n_channels, n_frames)`` float32 array."""
+def _decodable_frames(name: str, block: int = 4096) -> int:
+    """Frames that decode before the first error (for the message about a file that breaks off)."""
+    import soundfile as sf
+
+    done = 0
+    try:
+        with sf.SoundFile(name, "r") as fh:
+            while True:
+                n = len(fh.read(block, dtype="float32"))
+                done += n
+                if n < block:
+                    break
+    except (sf.LibsndfileError, RuntimeError, sf.SoundFileError):
+        pass
+    return done
+
+
+def _decode(fh, n_channels: int, n_expected: int, progress: list | None = None) -> np.ndarray:
+    """Decode an open SoundFile into a C-contiguous ``(n_channels, n_frames)`` float32 array.
+
+    ``progress[0]``, when given, holds the frames decoded so far (for the error message
+    of a file that breaks off).
+    """
+    progress = [0] if progress is None else progress
     if n_expected < 0:  # not seekable: frame count unknown, read everything
         inter = fh.read(dtype="float32", always_2d=True)
         return np.ascontiguousarray(inter.T)
@@ -211,6 +248,7 @@ def _decode(fh, n_channels: int, n_expected: int) -> np.ndarray:
             got = fh.read(want, dtype="float32", out=data[0, done:done + want])
             n_got = len(got)
             done += n_got
+            progress[0] = done
             if n_got < want:
                 break
         return data[:, :done] if done < n_expected else data
@@ -222,6 +260,7 @@ def _decode(fh, n_channels: int, n_expected: int) -> np.ndarray:
         n_got = len(got)
         data[:, done:done + n_got] = got.T
         done += n_got
+        progress[0] = done
         if n_got < want:
             break
     if done < n_expected:

@@ -98,6 +98,21 @@ def test_corrupt_flac(tmp_path, sim):
     assert _says(str(e.value), "corrupt.flac", "corrupt", "export it again")
 
 
+def test_truncated_flac_says_where_it_breaks_off(tmp_path, sim):
+    good = _write(tmp_path, "good.flac", _frames(sim))
+    raw = good.read_bytes()
+    cut = tmp_path / "cut.flac"
+    cut.write_bytes(raw[:int(0.6 * len(raw))])        # a copy interrupted at 60 %
+    with pytest.raises(RecordingError) as e:
+        read_recording(cut)
+    m = re.search(r"breaks off after ([0-9.]+) s of the ([0-9.]+) s", str(e.value))
+    assert m, str(e.value)
+    # soundfile as reference: the header announces the whole 3 s; some of it decodes
+    assert float(m.group(2)) == pytest.approx(sf.info(str(good)).duration, abs=0.01)
+    assert 0.5 < float(m.group(1)) < float(m.group(2))
+    assert _says(str(e.value), "truncated", "copy it again")
+
+
 def test_folder_instead_of_file(tmp_path):
     with pytest.raises(RecordingError) as e:
         read_recording(tmp_path)
