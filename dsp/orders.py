@@ -25,7 +25,8 @@ from .errors import AnalysisError, GearbenchError
 __all__ = ["AngularSignal", "OrderSpectrum", "angular_resample", "order_spectrum"]
 
 _NU_MAX = 1.0 / 16.0         # highest content / sampling rate fed to the cubic interpolator
-_CHUNK = 1 << 18             # angle samples interpolated at once
+_CHUNK = 1 << 18             # angle samples interpolated at once, at most
+_CHUNK_SPAN = 1 << 17        # signal samples (before upsampling) a chunk spans, about
 _SCALINGS = ("peak", "rms")
 
 
@@ -150,7 +151,13 @@ def _lagrange4(y: np.ndarray, u: np.ndarray) -> np.ndarray:
 
 
 def _prepare(x: np.ndarray, fs: float, lowpass_hz: float | None) -> tuple[np.ndarray, int]:
-    """Low-pass (zero phase, cosine edge over the top 5 % of the band) and upsample."""
+    """Low-pass (zero phase, cosine edge over the top 5 % of the band) and upsample.
+
+    The extended record is padded to a fast FFT length (``scipy.fft.next_fast_len``;
+    the extra samples continue the odd extension at the end) so that neither the
+    forward nor the ``U``-times longer inverse FFT runs at a length with large prime
+    factors.
+    """
     nu = (lowpass_hz if lowpass_hz is not None else fs / 2) / fs
     U = 1
     while nu / U > _NU_MAX:
@@ -164,20 +171,29 @@ def _prepare(x: np.ndarray, fs: float, lowpass_hz: float | None) -> tuple[np.nda
     # odd (point-symmetric) extension at both ends keeps the signal and its slope continuous
     # across the FFT's wrap-around, so the zero-phase filter does not ring at the record ends
     pad = min(n - 1, max(1024, n // 8))
-    ext = np.concatenate([2 * xd[0] - xd[pad:0:-1], xd, 2 * xd[-1] - xd[-2:-pad - 2:-1]])
-    m = ext.shape[0]
+    m = scipy.fft.next_fast_len(n + 2 * pad, real=True)
+    pad_b = m - n - pad                                  # >= pad: the end takes the extra samples
+    ext = np.empty(m)
+    ext[:pad] = 2 * xd[0] - xd[pad:0:-1]
+    ext[pad:pad + n] = xd
+    tail = xd[-2:-pad_b - 2:-1]                          # as many as the record holds
+    ext[pad + n:pad + n + tail.size] = 2 * xd[-1] - tail
+    if tail.size < pad_b:                                # a short record: hold the last value
+        ext[pad + n + tail.size:] = ext[pad + n + tail.size - 1]
     X = scipy.fft.rfft(ext)
-    f = np.arange(X.size) * (fs / m)
+    del ext
     if lowpass_hz is not None:
         f1 = lowpass_hz
         f0 = 0.95 * f1
-        gain = np.ones(X.size)
-        edge = (f > f0) & (f < f1)
-        gain[edge] = 0.5 * (1 + np.cos(np.pi * (f[edge] - f0) / (f1 - f0)))
-        gain[f >= f1] = 0.0
-        X *= gain
-    y = scipy.fft.irfft(X, n=m * U) * U
+        df = fs / m
+        k0 = min(int(math.floor(f0 / df)) + 1, X.size)   # first bin with f > f0
+        k1 = min(int(math.ceil(f1 / df)), X.size)        # first bin with f >= f1
+        f = np.arange(k0, k1) * df
+        X[k0:k1] *= 0.5 * (1 + np.cos(np.pi * (f - f0) / (f1 - f0)))
+        X[k1:] = 0.0
+    y = scipy.fft.irfft(X, n=m * U, overwrite_x=True)
     y = y[pad * U: (pad + n) * U]
+    y *= U
     return y, U
 
 
@@ -276,8 +292,11 @@ def angular_resample(x, fs, profile, *, shaft_order: float = 1.0, samples_per_re
     seg_margin = 256 if lowpass is None else max(256, int(math.ceil(60.0 * fs / lowpass)))
     out = np.empty(N * P)
     U = 1
-    for j0 in range(0, N * P, _CHUNK):
-        j1 = min(j0 + _CHUNK, N * P)
+    # chunks that span about _CHUNK_SPAN signal samples keep each FFT cache-sized, so
+    # the time grows linearly with the record (fewer angle samples when P is coarse)
+    chunk = int(min(_CHUNK, max(4096, _CHUNK_SPAN * P * f_min / fs)))
+    for j0 in range(0, N * P, chunk):
+        j1 = min(j0 + chunk, N * P)
         ang = (a + np.arange(j0, j1, dtype=np.float64) / P) / r
         u = np.asarray(profile.time_s(ang), dtype=np.float64) * fs
         i0 = max(int(math.floor(u[0])) - seg_margin, 0)
