@@ -192,23 +192,31 @@ def _speed(recording, model, x: np.ndarray, i0: int, i1: int, fs: float, referen
 
     tach = model.tach
     duration = (i1 - i0) / fs
+    rpm = tach.nominal_rpm
     if tach.channel is not None:
         tx = recording.channel(int(tach.channel))[i0:i1]
-        pulses = detect_pulses(tx, fs, pulses_per_rev=int(tach.pulses_per_rev or 1), edge=tach.edge or "rising")
-        if pulses.n_pulses < 3:
-            raise TachError(
-                f"the tach channel {tach.channel} gives {pulses.n_pulses} pulses in the range analysed; "
-                "check tach.channel and tach.pulses_per_rev, or analyse a longer range"
-            )
-        profile = speed_profile(pulses, reference)
-        if pulses.n_repaired or pulses.n_rejected:
-            warn.append(
-                f"tach repaired: {pulses.n_repaired} missing pulses inserted and {pulses.n_rejected} extra pulses "
-                f"removed out of {pulses.n_found} found; check the tach signal if these are many."
-            )
-        warn.extend(f"tach: {w}" for w in pulses.warnings)
-        return profile, pulses
-    rpm = tach.nominal_rpm
+        try:
+            pulses = detect_pulses(tx, fs, pulses_per_rev=int(tach.pulses_per_rev or 1), edge=tach.edge or "rising")
+            if pulses.n_pulses < 3:
+                raise TachError(
+                    f"the tach channel {tach.channel} gives {pulses.n_pulses} pulses in the range analysed; "
+                    "check tach.channel and tach.pulses_per_rev, or analyse a longer range"
+                )
+        except TachError as exc:
+            if rpm is None or not rpm > 0:
+                raise
+            # an unusable tach with a nominal speed: go on as without a tach channel, and say so
+            warn.append(f"tach channel {tach.channel} unusable ({exc}); the speed below comes from the "
+                        f"gear mesh and tach.nominal_rpm instead: check the tach wiring and channel number.")
+        else:
+            profile = speed_profile(pulses, reference)
+            if pulses.n_repaired or pulses.n_rejected:
+                warn.append(
+                    f"tach repaired: {pulses.n_repaired} missing pulses inserted and {pulses.n_rejected} extra "
+                    f"pulses removed out of {pulses.n_found} found; check the tach signal if these are many."
+                )
+            warn.extend(f"tach: {w}" for w in pulses.warnings)
+            return profile, pulses
     if rpm is None or not rpm > 0:
         raise TachError(
             "the model has neither a tach channel nor a nominal speed; give tach.channel or tach.nominal_rpm",

@@ -229,17 +229,6 @@ def test_narrow_genuine_pulses_are_kept():
     assert p.n_pulses == n_rev and p.n_rejected == 0   # common practice, no source
 
 
-def test_flat_tach_with_nominal_speed_in_analyze_gives_an_actionable_error(tmp_path, sim):
-    frames = _frames(sim)
-    frames[:, 1] = 0.0
-    path = _write(tmp_path, "flat.flac", frames)
-    with pytest.raises(TachError) as e:
-        analyze(read_recording(path), _train())
-    assert _says(str(e.value), "flat", "remove tach.channel")
-
-
-@pytest.mark.xfail(strict=True, reason="dsp.analysis._speed raises on an unusable tach channel instead of "
-                                       "falling back on the mesh estimate when nominal_rpm is set (reported)")
 def test_flat_tach_with_nominal_speed_falls_back_on_the_estimate(tmp_path, sim):
     frames = _frames(sim)
     frames[:, 1] = 0.0
@@ -247,6 +236,18 @@ def test_flat_tach_with_nominal_speed_falls_back_on_the_estimate(tmp_path, sim):
     a = analyze(read_recording(path), _train())
     assert a.speed.source == "estimated"
     assert a.speed.mean_hz * 60 == pytest.approx(RPM, rel=1e-3)  # the simulated speed
+    # the warning says what happened (flat tach) and how to fix it
+    assert any(_says(w, "flat", "remove tach.channel", "check the tach wiring") for w in a.warnings), a.warnings
+
+
+def test_flat_tach_without_nominal_speed_in_analyze_gives_an_actionable_error(tmp_path, sim):
+    frames = _frames(sim)
+    frames[:, 1] = 0.0
+    path = _write(tmp_path, "flat.flac", frames)
+    train = dataclasses.replace(_train(), tach=dataclasses.replace(_train().tach, nominal_rpm=None))
+    with pytest.raises(TachError) as e:
+        analyze(read_recording(path), train)
+    assert _says(str(e.value), "flat", "remove tach.channel")
 
 
 # ---------------------------------------------------------------------------------------------
