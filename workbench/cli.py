@@ -74,13 +74,23 @@ def main(argv: list[str] | None = None) -> int:
     from dsp.errors import GearbenchError
 
     try:
-        return int(module.run(args) or 0)
+        status = int(module.run(args) or 0)
+        sys.stdout.flush()  # a closed pipe shows here, inside the handler below
+        return status
     except GearbenchError as exc:
         return fail(str(exc))
     except FileNotFoundError as exc:
         return fail(f"file not found: {exc.filename}; check the path")
     except KeyboardInterrupt:
         return 130
+    except BrokenPipeError:
+        # the reader stopped early (``| head``): end quietly.  Python docs, signal module,
+        # "Note on SIGPIPE": point stdout at devnull so the final flush does not raise again.
+        import os
+
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return 0
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -108,14 +108,13 @@ def run(args: argparse.Namespace) -> int:
         rpm = float(nominal)
     table = frequency_table(train, rpm / 60.0, args.shaft)
     warnings = [str(p) for p in model_warnings(train)]
-    from workbench.commands.info import write_stdout
 
     if args.json:
         d = table.to_json_dict()
         d["warnings"] = warnings
-        write_stdout(json.dumps(d, indent=2))
+        print(json.dumps(d, indent=2))
     else:
-        write_stdout(format_table(table, train.name))
+        print(format_table(table, train.name))
         for w in warnings:
             print(f"warning: {w}", file=sys.stderr)
     return 0

@@ -245,24 +245,10 @@ def format_text(doc: dict) -> str:
     return "\n".join(out)
 
 
-def write_stdout(text: str) -> None:
-    """Print ``text``; a reader that stops early (``| head``) ends the output quietly, not with a traceback."""
-    import os
-    import sys
-
-    try:
-        print(text, flush=True)
-    except BrokenPipeError:
-        # Python docs, signal module, "Note on SIGPIPE": point stdout at devnull so that the
-        # interpreter's final flush does not raise again.
-        devnull = os.open(os.devnull, os.O_WRONLY)
-        os.dup2(devnull, sys.stdout.fileno())
-
-
 def run(args: argparse.Namespace) -> int:
     doc = collect(args.recording, args.model)
     if args.json:
-        write_stdout(json.dumps(doc, indent=2, allow_nan=False))
+        print(json.dumps(doc, indent=2, allow_nan=False))
     else:
-        write_stdout(format_text(doc))
+        print(format_text(doc))
     return 0
