@@ -107,3 +107,19 @@ def test_command_module_imports_lightly():
             "print(','.join(heavy))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == ""  # DEVELOPERS.md: subcommands import heavy modules only when they run
+
+
+def test_folders_are_named_as_folders(recordings, tmp_path, capsys):
+    assert main(["analyze", str(tmp_path)]) == 2
+    assert "is a folder" in capsys.readouterr().err
+    assert main(["analyze", str(recordings["healthy"]), "--model", str(tmp_path)]) == 2
+    assert "is a folder" in capsys.readouterr().err
+
+
+def test_wide_indicator_values_keep_the_columns_apart():
+    from workbench.commands.analyze import _num
+
+    # a value too wide for its column falls back to 3 significant digits (common practice, no source)
+    assert _num(4.3815957327e9, ".2f", 7) == "4.38e+09"
+    assert _num(3.16, ".2f", 7) == "3.16"
+    assert _num(float("nan"), ".2f", 7) == "-"

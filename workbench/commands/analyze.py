@@ -49,10 +49,14 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="print the analysis as JSON")
 
 
-def _num(x, fmt: str = ".3g") -> str:
+def _num(x, fmt: str = ".3g", width: int | None = None) -> str:
+    """``x`` in ``fmt``; ``-`` for a missing value; 3 significant digits when too wide."""
     if x is None or (isinstance(x, float) and not math.isfinite(x)):
         return "-"
-    return format(x, fmt)
+    text = format(x, fmt)
+    if width is not None and len(text) >= width:
+        text = format(x, ".3g")
+    return text
 
 
 def format_summary(d: dict, baseline_lines: list[str] | None = None) -> str:
@@ -63,7 +67,7 @@ def format_summary(d: dict, baseline_lines: list[str] | None = None) -> str:
     out: list[str] = []
     rec, sp = d["recording"], d["speed"]
     out.append(f"Recording {rec['path']}")
-    out.append(f"  {rec['duration_s']:.2f} s at {rec['sample_rate_hz']:g} Hz, {rec['channels']} channels; "
+    out.append(f"  {rec['duration_s']:.2f} s at {rec['sample_rate_hz']:g} Hz, {rec['channels']} channel{'s' if rec['channels'] != 1 else ''}; "
                f"sensor {rec['sensor']['name']!r} on channel {rec['sensor']['channel']}")
     out.append(f"Speed ({sp['source']}): shaft {sp['reference_shaft']} {sp['mean_rpm']:.1f} rpm "
                f"({sp['mean_hz']:.3f} Hz), range {60 * sp['min_hz']:.1f} to {60 * sp['max_hz']:.1f} rpm")
@@ -87,9 +91,10 @@ def format_summary(d: dict, baseline_lines: list[str] | None = None) -> str:
         out.append(f"  {'shaft':<14}{'revs':>6}{'RMS':>10}{'kurt':>7}{'FM0':>7}{'FM4':>7}{'NA4':>7}"
                    f"{'M6A':>8}{'M8A':>9}{'ER':>7}")
         for t in d["tsa"]:
-            out.append(f"  {t['shaft']:<14}{t['averages']:>6}{_num(t['rms']):>10}{_num(t['kurtosis'], '.2f'):>7}"
-                       f"{_num(t['fm0'], '.2f'):>7}{_num(t['fm4'], '.2f'):>7}{_num(t['na4'], '.2f'):>7}"
-                       f"{_num(t['m6a'], '.1f'):>8}{_num(t['m8a'], '.0f'):>9}{_num(t['er'], '.3f'):>7}")
+            out.append(f"  {t['shaft']:<14}{t['averages']:>6}{_num(t['rms'], '.3g', 10):>10}"
+                       f"{_num(t['kurtosis'], '.2f', 7):>7}{_num(t['fm0'], '.2f', 7):>7}"
+                       f"{_num(t['fm4'], '.2f', 7):>7}{_num(t['na4'], '.2f', 7):>7}"
+                       f"{_num(t['m6a'], '.1f', 8):>8}{_num(t['m8a'], '.0f', 9):>9}{_num(t['er'], '.3f', 7):>7}")
     if d["sidebands"]:
         out.append("Sideband families (owner shaft by spacing):")
         for f in d["sidebands"]:
@@ -133,7 +138,11 @@ def run(args: argparse.Namespace) -> int:
     path = Path(args.recording)
     if not path.exists():
         raise GearbenchError(f"recording {str(path)!r} not found; check the path")
+    if path.is_dir():
+        raise GearbenchError(f"{str(path)!r} is a folder; give the path of a recording file in it")
     model_path = Path(args.model) if args.model else path.with_suffix(".toml")
+    if model_path.is_dir():
+        raise GearbenchError(f"model {str(model_path)!r} is a folder; give the path of a gear-train TOML file")
     if not model_path.exists():
         raise GearbenchError(
             f"model {str(model_path)!r} not found; give --model M (a gear-train TOML)"
