@@ -11,13 +11,15 @@ Steps (each reports progress and checks for cancellation):
 2. the speed of the reference shaft: tach pulses and their profile, or, without a
    tach channel, a speed estimated around the nominal speed;
 3. the frequency table of the model at the mean speed;
-4. ONE full-length rfft of the sensor signal, reused for the Hz spectrum, the
-   velocity spectrum and overall velocity, the zoom band, the envelope band and
-   the cepstrum;
-5. the order spectrum of the reference shaft;
-6. TSA of every shaft with residual and difference signals and indicators;
-7. the envelope band (kurtogram unless given), the squared-envelope spectrum and
-   the matches of bearing and shaft frequencies;
+4. the envelope band by the kurtogram (unless given) and the TSA of every shaft
+   with residual and difference signals and indicators: the steps that need the
+   time signal come first, so that it can be released once the rfft is taken;
+5. ONE full-length rfft of the sensor signal, reused for the Hz spectrum, the
+   zoom band, the low band (order spectrum and cepstrum) and the envelope band;
+6. the squared-envelope spectrum and the matches of bearing and shaft
+   frequencies; the cepstrum; then (with the rfft freed) the velocity spectrum
+   and overall velocity;
+7. the order spectrum of the reference shaft;
 8. sideband families and their owners; suspects.
 """
 
@@ -245,7 +247,7 @@ def _speed(recording, model, x: np.ndarray, i0: int, i1: int, fs: float, referen
 
 
 #: Samples per block for the whole-record moments (keeps float64 temporaries small).
-_BLOCK = 1 << 20
+_BLOCK = 1 << 16
 
 
 def _overall(x: np.ndarray, velocity_rms: float, quality) -> dict[str, Any]:
@@ -674,27 +676,41 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
     orders = {k: abs(float(v)) for k, v in shaft_orders(model, reference).items()}
     _nyquist_warnings(table, fs, spread, settings, warn)
 
-    step(0.12, "spectrum")
-    full, spectrum, vel, overall, zoom = _spectra(x, fs, sensor, settings, table, quality)
+    # Memory: the steps that need the time signal (kurtogram, TSA, moments) run first, so
+    # that the signal is released when the full-length rfft has been taken; the Hz spectrum
+    # and the velocity spectrum are made after the parts that need the rfft are done.
+    kurt = None
+    if settings.envelope_band_hz is None:
+        step(0.1, "envelope band (kurtogram)")
+        from .envelope import fast_kurtogram
+
+        kurt = fast_kurtogram(x, fs, max_level=settings.kurtogram_max_level)
+
+    tsas = _tsa_step(x, fs, profile, orders, table, model, settings, warn, step)
+
+    step(0.5, "spectrum")
+    overall = _overall(x, math.nan, quality)
+    full = _rfft(x, fs)
     max_order = _max_order(table, settings, fs, profile)
     low = _low_band(full, 1.3 * max_order * profile.max_hz)
     low_full, lx, lfs = (low[0], low[1], low[0].fs) if low is not None else (full, x, fs)
-    del low
+    del low, x  # the time signal is no longer needed (lx keeps it when no decimation was possible)
     max_order = float(min(max_order, 0.45 * lfs / profile.max_hz))
+    spectrum, zoom = _spectra(full, sensor, settings, table)
 
-    step(0.2, "envelope")
-    env, env_tracked, kurt, matches = _envelope_step(x, full, fs, table, settings, profile, spread, warn)
+    step(0.6, "envelope")
+    env, env_tracked, kurt, matches = _envelope_step(full, fs, table, settings, profile, spread, warn, kurt)
     # the cepstrum of the low band (mesh harmonics and their sidebands) from the shared rfft
     from .cepstrum import cepstrum_from_rfft
 
     ceps = cepstrum_from_rfft(low_full)
     del full, low_full  # everything that needs the full-length rfft has it now
+    vel, velocity_rms = _velocity(fs, sensor, settings, spectrum)
+    overall["velocity_rms_mm_s"] = velocity_rms
 
-    step(0.3, "order spectrum")
+    step(0.7, "order spectrum")
     ospec = _order_spectrum(lx, lfs, profile, max_order, check=step.check)
     del lx
-
-    tsas = _tsa_step(x, fs, profile, orders, table, model, settings, warn, step)
 
     step(0.8, "cepstrum rahmonics")
     ceps_prominence, ceps_support = _cepstrum_support(ceps, table)
@@ -815,24 +831,36 @@ def _nyquist_warnings(table, fs: float, spread: float, settings: Settings, warn:
             )
 
 
-def _spectra(x, fs: float, sensor, settings: Settings, table, quality):
-    """The one full rfft and what it gives: Hz and velocity spectra, overall levels, zoom."""
-    from .spectrum import band_rms, rfft_full, spectrum_from_rfft, velocity_spectrum, zoom_spectrum
+def _rfft(x, fs: float):
+    """The one full-length rfft of the sensor signal (``dsp.spectrum.rfft_full``)."""
+    from .spectrum import rfft_full
 
-    nyq = fs / 2.0
-    full = rfft_full(x, fs)
+    return rfft_full(x, fs)
+
+
+def _spectra(full, sensor, settings: Settings, table):
+    """What the one full rfft gives directly: the Hz spectrum and the zoom band."""
+    from .spectrum import spectrum_from_rfft, zoom_spectrum
+
+    nyq = full.fs / 2.0
     spectrum = spectrum_from_rfft(full, window=settings.window, scaling=settings.spectrum_scaling, units=sensor.units)
-    vel = velocity_spectrum(spectrum, units=sensor.units if sensor.units in ("g", "m/s2") else "g",
-                            cutoff_hz=max(2.0, 0.5 * settings.velocity_band_hz[0]))
-    lo, hi = settings.velocity_band_hz
-    overall = _overall(x, band_rms(vel, lo, min(hi, nyq)), quality)
     zoom = None
     top = [m.gmf_hz for m in table.meshes] + [p.mesh_hz for p in table.planetary]
     if top and top[0] < nyq:
         span = max(8 * max(s.hz for s in table.shafts), 20 * full.resolution_hz)
         zoom = zoom_spectrum(full, None, top[0], span, window=settings.window, scaling=settings.spectrum_scaling,
                              units=sensor.units)
-    return full, spectrum, vel, overall, zoom
+    return spectrum, zoom
+
+
+def _velocity(fs: float, sensor, settings: Settings, spectrum):
+    """Velocity spectrum of the Hz spectrum and the velocity RMS in its band (mm/s)."""
+    from .spectrum import band_rms, velocity_spectrum
+
+    vel = velocity_spectrum(spectrum, units=sensor.units if sensor.units in ("g", "m/s2") else "g",
+                            cutoff_hz=max(2.0, 0.5 * settings.velocity_band_hz[0]))
+    lo, hi = settings.velocity_band_hz
+    return vel, float(band_rms(vel, lo, min(hi, fs / 2.0)))
 
 
 def _max_order(table, settings: Settings, fs: float, profile) -> float:
@@ -845,17 +873,16 @@ def _max_order(table, settings: Settings, fs: float, profile) -> float:
     return float(min(max_order, 0.45 * fs / profile.max_hz))
 
 
-def _envelope_step(x, full, fs: float, table, settings: Settings, profile, spread: float, warn: list[str]):
-    """Envelope band (kurtogram or user), squared-envelope spectrum and the family matches."""
-    from .envelope import envelope_spectrum, fast_kurtogram
+def _envelope_step(full, fs: float, table, settings: Settings, profile, spread: float, warn: list[str], kurt):
+    """Envelope band (user, or from the kurtogram ``kurt``), squared-envelope spectrum and the family matches."""
+    from .envelope import envelope_spectrum
     from .suspects import match_envelope
 
-    kurt = None
     if settings.envelope_band_hz is not None:
         band = tuple(float(v) for v in settings.envelope_band_hz)
         band_source = "user"
+        kurt = None
     else:
-        kurt = fast_kurtogram(x, fs, max_level=settings.kurtogram_max_level)
         band = _choose_band(kurt, table, settings, fs / 2.0, warn)
         band_source = "kurtogram"
     env = envelope_spectrum(full, fs, band, band_source=band_source)
@@ -887,10 +914,10 @@ def _tsa_step(x, fs: float, profile, orders, table, model, settings: Settings, w
         eligible[name] = orders[name]
     tsas: list[ShaftTSA] = []
     if eligible:
-        step(0.45, "TSA of shafts " + ", ".join(eligible))
+        step(0.15, "TSA of shafts " + ", ".join(eligible))
         results = tsa_shafts(x, fs, profile, eligible, samples_per_rev=settings.tsa_samples_per_rev)
         for k, (name, res) in enumerate(zip(eligible, results)):
-            step(0.65 + 0.1 * k / len(eligible), f"TSA indicators of shaft {name}")
+            step(0.35 + 0.1 * k / len(eligible), f"TSA indicators of shaft {name}")
             tsas.append(_derived(res, name, table, model, settings))
     return tsas
 

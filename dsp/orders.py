@@ -290,11 +290,16 @@ def angular_resample(x, fs, profile, *, shaft_order: float = 1.0, samples_per_re
     # each segment filters/upsamples only its own stretch of signal plus a margin of true
     # neighbouring samples (the filter's settling length), and keeps the interior.
     seg_margin = 256 if lowpass is None else max(256, int(math.ceil(60.0 * fs / lowpass)))
-    out = np.empty(N * P)
+    # float32 input: the result is float32, so the chunks are written straight into it
+    out = np.empty(N * P, dtype=np.float32 if arr.dtype == np.float32 else np.float64)
     U = 1
-    # chunks that span about _CHUNK_SPAN signal samples keep each FFT cache-sized, so
-    # the time grows linearly with the record (fewer angle samples when P is coarse)
-    chunk = int(min(_CHUNK, max(4096, _CHUNK_SPAN * P * f_min / fs)))
+    nu = (lowpass if lowpass is not None else fs / 2) / fs
+    u_expected = 1
+    while nu / u_expected > _NU_MAX:                     # the upsampling _prepare will choose
+        u_expected *= 2
+    # chunks that span about _CHUNK_SPAN upsampled samples keep each FFT cache-sized and
+    # the temporaries small, so time and memory grow linearly with the record
+    chunk = int(min(_CHUNK, max(4096, _CHUNK_SPAN / u_expected * P * f_min / fs)))
     for j0 in range(0, N * P, chunk):
         j1 = min(j0 + chunk, N * P)
         ang = (a + np.arange(j0, j1, dtype=np.float64) / P) / r
@@ -303,8 +308,6 @@ def angular_resample(x, fs, profile, *, shaft_order: float = 1.0, samples_per_re
         i1 = min(int(math.ceil(u[-1])) + seg_margin, n - 1)
         y, U = _prepare(arr[i0:i1 + 1], fs, lowpass)
         out[j0:j1] = _lagrange4(y, (u - i0) * U)
-    if arr.dtype == np.float32:
-        out = out.astype(np.float32)
     out.setflags(write=False)
     return AngularSignal(values=out, samples_per_rev=P, n_revs=N, shaft_order=r, rev_start=a,
                          max_order=float(k), lowpass_hz=lowpass, upsample=U,
@@ -392,12 +395,18 @@ def order_spectrum(x, fs, profile, *, shaft_order: float = 1.0, max_order: float
     import scipy.fft
 
     power = None
-    v = np.asarray(sig.values, dtype=np.float64)
+    v = sig.values                      # float32 or float64; the product with w is float64
     for s in starts:
-        seg = v[s: s + L]
-        X = scipy.fft.rfft(seg * w)
-        p = np.abs(X) ** 2
-        power = p if power is None else power + p
+        seg = np.multiply(v[s: s + L], w, dtype=np.float64)
+        X = scipy.fft.rfft(seg, overwrite_x=True)
+        del seg
+        p = np.abs(X)
+        del X
+        p *= p
+        if power is None:
+            power = p
+        else:
+            power += p
     amp = np.sqrt(power / len(starts)) * (2.0 / w.sum())
     amp[0] /= 2.0
     if L % 2 == 0:

@@ -72,7 +72,7 @@ _AVERAGES = ("mean", "max")
 _UNITS = ("g", "m/s2")
 _INTEGRALS = ("velocity", "displacement")
 _CHUNK_ELEMENTS = 1 << 22  # samples per block when averaging segments
-_BLOCK_BINS = 1 << 18      # lines per block in the full-length steps (bounded temporaries)
+_BLOCK_BINS = 1 << 16      # lines per block in the full-length steps (bounded temporaries)
 
 
 # --------------------------------------------------------------------------- checks
@@ -171,10 +171,17 @@ def window_values(window: str, n: int, dtype=np.float64) -> np.ndarray:
     n = int(n)
     if n < 1:
         raise AnalysisError(f"n={n} must be a positive window length in samples.")
-    phase = 2.0 * np.pi * np.arange(n) / n
+    phase = np.arange(n, dtype=np.float64)
+    phase *= 2.0 * np.pi
+    phase /= n
     w = np.zeros(n)
-    for k, a in enumerate(WINDOWS[window]):
-        w += (-1) ** k * a * np.cos(k * phase)
+    term = np.empty(n)
+    for k, a in enumerate(WINDOWS[window]):  # in place: two temporaries whatever the length
+        np.multiply(phase, k, out=term)
+        np.cos(term, out=term)
+        term *= (-1) ** k * a
+        w += term
+    del phase, term
     return w.astype(dtype, copy=False)
 
 
