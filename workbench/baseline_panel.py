@@ -438,6 +438,10 @@ class BaselineController(QObject):
         self.runner.cancelled.connect(self._on_cancelled)
         window.analysis_shown.connect(self._on_analysis)
         self.session.subscribe(self._on_event, ("baseline",))
+        # the severity box's choices live in the session (saved with it, restored when it is opened)
+        self.panel.severity_changed.connect(self._on_severity_chosen)
+        self.session.subscribe(self._on_severity_event, ("severity",))
+        self._on_severity_event(None)
 
     # -- menu
     def _build_menu(self) -> None:
@@ -507,6 +511,15 @@ class BaselineController(QObject):
         return True
 
     # -- events
+    def _on_severity_chosen(self, group: str, foundation: str, lo_hz: float, hi_hz: float) -> None:
+        self.session.set_severity(group=group, foundation=foundation, band_hz=(lo_hz, hi_hz))
+
+    def _on_severity_event(self, _event) -> None:
+        chosen = getattr(self.session, "severity", None) or {}
+        band = chosen.get("band_hz")
+        self.panel.set_options(group=chosen.get("group"), foundation=chosen.get("foundation"),
+                               band_hz=tuple(band) if isinstance(band, (list, tuple)) and len(band) == 2 else None)
+
     def _on_event(self, event) -> None:
         # a new baseline path; settings and model changes are picked up when the
         # current analysis comes back, so the current recording is analysed first

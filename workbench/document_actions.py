@@ -12,7 +12,10 @@ by one line and adds, without the window having to know the details:
 - autosave every :data:`workbench.session_store.AUTOSAVE_INTERVAL_S` s while there
   are unsaved changes, and an offer to recover a newer autosave when a session or a
   recording is opened;
-- a banner when the recording's SHA-256 differs from the one the session saved.
+- a banner when the recording's SHA-256 differs from the one the session saved;
+- a Save / Discard / Cancel question when the window closes with unsaved work, and an
+  offer of a new session when another recording is opened over notes, cursors,
+  snapshots or findings (they belong to the previous recording).
 
 Everything with a dialog also has a plain method that tests call directly
 (:meth:`open_session`, :meth:`save_session`, :meth:`recover`, :meth:`snapshot`,
@@ -39,7 +42,7 @@ log = logging.getLogger(__name__)
 
 AUTOSAVE_CHECK_MS = 5_000          # how often the timer asks the autosaver (it writes at most every 30 s)
 DIRTY_KINDS = ("recording", "model", "settings", "shaft", "view_options", "cursors", "annotations",
-               "snapshots", "findings", "baseline")
+               "snapshots", "findings", "baseline", "severity")
 SESSION_FILTER = "gearbench sessions (*.json)"
 
 
@@ -320,6 +323,10 @@ class DocumentActions(QObject):
             s.set_snapshots(doc.snapshots)
             s.set_findings(doc.findings or "")
             s.recording_sha256 = doc.recording_sha256
+            chosen = getattr(doc, "severity", None)
+            if chosen and callable(getattr(s, "set_severity", None)):
+                s.set_severity(group=chosen.get("group"), foundation=chosen.get("foundation"),
+                               band_hz=tuple(chosen.get("band_hz") or (10.0, 1000.0)))
             if callable(getattr(s, "set_baseline", None)):
                 s.set_baseline(doc.baseline_path)
             else:
@@ -378,6 +385,102 @@ class DocumentActions(QObject):
         candidate = self.recovery_candidate()
         if candidate is not None and self.window.isVisible():
             self.offer_recovery(candidate)
+
+    # ------------------------------------------------------------------ questions
+    #: Tests (and scripts) may set this to ``fn(title, text, choices) -> choice`` to answer questions.
+    answer = None
+
+    def ask(self, title: str, text: str, choices: tuple[str, ...], *, unattended: str) -> str:
+        """Ask the analyst to pick one of ``choices`` (the first is the default); "Cancel" when closed.
+
+        On the offscreen platform no one can answer: ``unattended`` is returned without a dialog.
+        """
+        from PySide6.QtGui import QGuiApplication
+
+        if self.answer is not None:
+            return self.answer(title, text, choices)
+        if QGuiApplication.platformName() == "offscreen":
+            return unattended
+        box = QMessageBox(QMessageBox.Icon.Question, title, text, QMessageBox.StandardButton.NoButton, self.window)
+        buttons = {}
+        for choice in choices:
+            role = (QMessageBox.ButtonRole.RejectRole if choice == "Cancel" else
+                    QMessageBox.ButtonRole.DestructiveRole if choice == "Discard" else
+                    QMessageBox.ButtonRole.AcceptRole)
+            buttons[box.addButton(choice, role)] = choice
+        box.setDefaultButton(next(iter(buttons)))
+        box.exec()
+        return buttons.get(box.clickedButton(), "Cancel")
+
+    def has_work(self) -> bool:
+        """True when the session holds the analyst's work: notes, cursors, snapshots or findings."""
+        self.findings.commit_now()
+        s = self.session
+        return bool(s.cursors or s.annotations or s.snapshots or (s.findings or "").strip())
+
+    def unsaved(self) -> bool:
+        """True while changes are not in the session file (in memory, or only in the autosave)."""
+        return bool(self.autosaver.dirty or self.autosaver.last_path is not None)
+
+    def confirm_close(self) -> bool:
+        """Before the window closes: Save / Discard / Cancel when there is unsaved work. True: go on."""
+        return self._save_unsaved("Close gearbench", "close", unattended="Keep")
+
+    def _save_unsaved(self, title: str, doing: str, *, unattended: str) -> bool:
+        self.findings.commit_now()
+        if not (self.unsaved() and (self.has_work() or self.session_path is not None)):
+            return True
+        where = self.session_path.name if self.session_path is not None else "this session (never saved)"
+        choice = self.ask(title, f"There are unsaved changes in {where}. Save them before you {doing}?",
+                          ("Save", "Discard", "Cancel"), unattended=unattended)
+        if choice == "Save":
+            if self.session_path is None:
+                self._ask_save_session()
+            else:
+                self._guard("Could not save the session", self.save_session, self.session_path)
+            return not self.unsaved()
+        if choice == "Discard":
+            path = self.autosave_path()
+            if path is not None:
+                session_store.discard_autosave(path)
+            self.autosaver.saved()
+            return True
+        return choice != "Cancel"   # "Keep" (unattended): the autosave keeps the work
+
+    def before_new_recording(self, path: Path) -> bool:
+        """Another recording is about to be opened: offer a new session. False: do not open it."""
+        current = self.session.recording_path
+        if current is None or Path(current) == Path(path) or not self.has_work():
+            return True
+        choice = self.ask(
+            "Open another recording",
+            f"The notes, cursors, snapshots and findings on screen belong to {Path(current).name}. "
+            f"Start a new session for {Path(path).name} (the current one can be saved first), or keep them?",
+            ("New session", "Keep them", "Cancel"), unattended="New session")
+        if choice == "Cancel":
+            return False
+        if choice == "New session":
+            if not self._save_unsaved("Open another recording", "start a new session", unattended="Keep"):
+                return False
+            self.new_session()
+        return True
+
+    def new_session(self) -> None:
+        """Forget the analyst's work (notes, cursors, snapshots, findings) and the session file."""
+        self._loading = True
+        try:
+            self.session.set_cursors([])
+            self.session.set_annotations([])
+            self.session.set_snapshots([])
+            self.session.set_findings("")
+            self.session.recording_sha256 = None
+        finally:
+            self._loading = False
+        self.session_path = None
+        self.autosaver.saved()
+        self.history.clear()
+        self.gallery.set_entries([])
+        self.window.banner.set_part("session", "info", None)
 
     # ------------------------------------------------------------------ snapshots
     def snapshot_folder(self) -> Path:

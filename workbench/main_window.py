@@ -246,29 +246,54 @@ class MainWindow(QMainWindow):
             view_menu.addAction(action)
 
     # ------------------------------------------------------------------ files
-    def open_recording(self, path: str | Path, model_path: str | Path | None = None) -> None:
-        """Open a recording with its model (``model_path``, else the same-stem .toml beside it)."""
+    def open_recording(self, path: str | Path, model_path: str | Path | None = None) -> bool:
+        """Open a recording with its model (``model_path``, else the same-stem .toml beside it).
+
+        A missing file is named in the banner and the current recording stays open.  When
+        the session holds notes, cursors, snapshots or findings, the analyst is offered a
+        new session first (they belong to the previous recording).  Without a model file
+        beside the recording, the model on screen (typed or loaded) is kept.  Returns
+        False when nothing was opened.
+        """
         path = Path(path)
+        document = getattr(self, "document", None)
+        loading = bool(getattr(document, "_loading", False))
+        if not loading and not path.is_file():
+            message = (f"The recording {path} does not exist; check the path or choose another file"
+                       if not path.exists() else f"{path} is not a file; choose a recording file")
+            self.last_error = message
+            self.banner.set_part("analysis", "error", message + ".")
+            self.status_label.setText(message)
+            self.analysis_failed.emit(message)
+            self.idle.emit()
+            return False
+        if document is not None and not loading and not document.before_new_recording(path):
+            return False
         self.runner.cancel()
         self.analysis, self.recording, self.last_error = None, None, None
         for view in self.views.values():
             view.clear()
-        self.banner.set_part("analysis", "error", None)
-        self.banner.set_part("warnings", "warning", None)
+        for key in ("analysis", "warnings", "model", "first_steps"):
+            self.banner.set_part(key, "info", None)
         self.session.set_recording(path)
         self.file_label.setText(html.escape(str(path)))
         self.setWindowTitle(f"{path.name} - gearbench")
         self._remember(path)
         model_path = Path(model_path) if model_path is not None else path.with_suffix(".toml")
         if model_path.exists():
-            self.open_model(model_path)
+            if not self.open_model(model_path):
+                self.session.set_model(None, None)   # never analyse this recording with another model
+        elif self.session.model is not None:
+            self.banner.set_part("first_steps", "info",
+                                 f"No model file beside {path.name}: the model on screen is kept; check that it "
+                                 "fits this recording, and save it beside it with File > Save model as.")
         else:
-            self.session.set_model(None, None)
             if self.form is not None:
                 self.form.set_model(None)
             self.banner.set_part("first_steps", "info", FIRST_STEPS)
         self._update_frequency_table()
         self.run_analysis()
+        return True
 
     def open_model(self, path: str | Path) -> bool:
         """Load a model file into the form and the document; problems are shown, not raised."""
@@ -520,5 +545,9 @@ class MainWindow(QMainWindow):
         self.views["spectrum"].show_family(carrier_hz, spacing_hz)
 
     def closeEvent(self, event):  # noqa: N802 - Qt override
+        document = getattr(self, "document", None)
+        if document is not None and not document.confirm_close():
+            event.ignore()
+            return
         self.runner.shutdown()
         super().closeEvent(event)

@@ -29,7 +29,7 @@ TSA_SIGNALS = ("average", "residual", "difference")
 
 # Event kinds a subscriber may receive.
 EVENT_KINDS = ("recording", "model", "settings", "shaft", "view_options", "view",
-               "cursors", "annotations", "snapshots", "findings", "baseline")
+               "cursors", "annotations", "snapshots", "findings", "baseline", "severity")
 
 
 @dataclass(frozen=True)
@@ -93,6 +93,8 @@ class Session:
     annotations: list[dict[str, Any]] = field(default_factory=list)
     snapshots: list[dict[str, Any]] = field(default_factory=list)
     findings: str = ""
+    # the severity box's choices: {"group": ..., "foundation": ..., "band_hz": [lo, hi]} or None (defaults)
+    severity: dict[str, Any] | None = None
     _listeners: list[tuple[Listener, frozenset[str] | None]] = field(default_factory=list, repr=False, compare=False)
 
     # ------------------------------------------------------------------ observers
@@ -226,6 +228,14 @@ class Session:
         if value != self.baseline_path:
             self.baseline_path = value
             self._emit("baseline", value)
+
+    def set_severity(self, *, group: str, foundation: str, band_hz: tuple[float, float]) -> None:
+        """The severity box's choices (machine group, foundation, velocity band in Hz)."""
+        value = {"group": str(group), "foundation": str(foundation),
+                 "band_hz": [float(band_hz[0]), float(band_hz[1])]}
+        if value != self.severity:
+            self.severity = value
+            self._emit("severity", dict(value))
 
     def set_findings(self, text: str) -> None:
         """The analyst's findings and recommendation (plain text)."""

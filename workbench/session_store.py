@@ -4,7 +4,7 @@ A session file (schema ``"gearbench.session/1"``) is the whole document as JSON:
 the keys of :meth:`workbench.session.Session.to_dict` (recording path, model,
 settings, selected shaft, view options) plus the analyst's work kept beside them
 (:data:`EXTRA_KEYS`): the recording's SHA-256, the baseline path, cursors,
-annotations, snapshots and the findings text.
+annotations, snapshots, the findings text and the severity box's choices.
 
 A session file is data only.  It is read with :func:`json.loads` and nothing in it
 is executed or imported; every value is checked for its type before it is used.
@@ -56,6 +56,7 @@ EXTRA_KEYS: dict[str, tuple[type | tuple[type, ...], Any]] = {
     "annotations": (list, []),
     "snapshots": (list, []),
     "findings": (str, ""),
+    "severity": ((dict, type(None)), None),
 }
 #: Fields of one annotation and their JSON types (see workbench.annotations.Annotation).
 ANNOTATION_FIELDS: dict[str, tuple[type, ...]] = {

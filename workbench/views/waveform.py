@@ -118,6 +118,9 @@ class WaveformView(AnalysisView):
         key = (id(recording), id(model), index)
         if key != self._data_key and recording is not None and model is not None:
             y = sensor_samples(recording, model, index)
+            if not np.all(np.isfinite(y)):
+                # drawn as the analysis uses them: NaN and infinite samples set to 0 (a copy; the warning says so)
+                y = np.where(np.isfinite(y), y, 0.0).astype(y.dtype)
             self._decimator = MinMaxDecimator(y, recording.sample_rate_hz)
             self._data_key = key
             units = model.sensors[index].units
