@@ -12,16 +12,19 @@ profile), so revolution boundaries fall at any sub-sample angle and the signal i
 is never interpolated.  The window's two ends are smooth steps (an erf of standard
 deviation 9 samples centred on the exact boundary time), which makes the sum
 independent of where the boundary falls between samples.  The sum is folded onto
-one revolution by spreading every weighted sample onto a fine angular grid (8 cells
-per output sample) with a cubic B-spline kernel, and one FFT of that grid gives all
-the ``c_k`` at once (a type-1 non-uniform FFT, Dutt & Rokhlin 1993; the kernel is
-applied through the moments sum(y mu^p), p = 0..3, of each sample's cell fraction
-mu).  The kernel is divided out exactly (``sinc**4``); what remains is its aliasing,
-at most ``(1/15)**4 + (1/17)**4 = 3e-5`` of a component's amplitude at the highest
-order, in the worst case where the sample positions repeat from revolution to
-revolution (constant speed with whole samples per revolution).  Measured: a pure
-order at constant speed to ~1e-6, and a pattern with harmonics up to 0.4 fs under
-+-3..4 % speed wander to 4e-6..1.2e-5 of its peak (float32 and float64 input alike;
+one revolution by spreading every weighted sample onto a fine angular grid (at least
+32 cells per period of the highest order kept) with a linear B-spline (tent) kernel,
+and one FFT of that grid gives all the ``c_k`` at once (a type-1 non-uniform FFT,
+Dutt & Rokhlin 1993; the kernel is applied through the moments sum(y mu^p), p = 0, 1,
+of each sample's cell fraction mu, which costs one complex accumulation per sample
+and shaft).  The kernel is divided out exactly (``sinc**2``); what remains is its
+aliasing, at most ``(1/31)**2 + (1/33)**2 = 2e-3`` of a component's amplitude at
+the highest order kept (``2 (k / G)**2`` at order ``k`` of a grid of ``G`` cells,
+1e-6 at order 3 of a 256-sample revolution), in the worst case where the sample
+positions repeat from revolution to revolution (constant speed with whole samples
+per revolution); when they do not repeat the aliasing spreads as noise.  Measured: a
+pure order at constant speed to ~1e-6, and a pattern with harmonics up to 0.4 fs
+under +-3 % speed wander to 7.5e-5 of its peak (float32 and float64 input alike;
 the per-sample angle work and the grid are float32, block angles float64).
 
 Orders are kept up to the time-domain Nyquist frequency at the shaft's highest
@@ -56,10 +59,11 @@ __all__ = [
     "tsa_comb_response",
 ]
 
-# Fine-grid cells per output sample for the spreading step (cubic B-spline kernel),
-# and the samples per block
+# Fine-grid cells per period of the highest order kept, for the spreading step (tent
+# kernel; 8 cells per output sample with a cubic kernel and four moments were 1.7x
+# slower for a TSA of 3 shafts), and the samples per block
 # of the cubic-Hermite evaluation of the shaft angle (see _Angles).
-_OVERSAMPLE = 8
+_OVERSAMPLE = 32
 _BLOCK = 32
 
 
@@ -309,7 +313,6 @@ class _Shaft:
         fs = ang.fs
         prof = ang.profile
         self.name, self.r, self.P = name, r, P
-        self.G = G = _OVERSAMPLE * P
         # first and last angle with a full smooth edge inside the data, shaft revolutions
         t_first = (ang.i_lo + _EDGE_HALF + 1) / fs
         t_last = (ang.i_lo + ang.n - 2 - _EDGE_HALF) / fs
@@ -337,15 +340,6 @@ class _Shaft:
         # interior samples (weight 1): strictly more than _EDGE_HALF samples from both boundaries
         self.k0 = int(math.floor(self.u_a + _EDGE_HALF)) + 1
         self.k1 = int(math.ceil(self.u_b - _EDGE_HALF))          # exclusive
-        # cells touched from a block's start cell: at most one block's angle step; a tail of
-        # that many cells past G takes them without a modulo, folded back in coefficients()
-        step = float(np.max(np.diff(ang.block_theta))) * r * G
-        self.tail = int(math.ceil(step)) + 3
-        self.fast = G + self.tail < (1 << 24)          # cell numbers exact in float32
-        # moments of the cubic B-spline weights per left cell: (S0 + j S1), (S2 + j S3),
-        # S_p = sum y mu^p
-        self.grid = np.zeros(G + self.tail, dtype=np.complex64)
-        self.grid2 = np.zeros(G + self.tail, dtype=np.complex64)
         smin, smax = ang.speed_range(a / r, (a + N) / r)
         self.shaft_min_hz, self.shaft_max_hz = smin * r, smax * r
         k_nyq = int(math.floor(fs / (2.0 * self.shaft_max_hz) * (1 - 1e-9)))
@@ -353,8 +347,21 @@ class _Shaft:
         if max_order is not None:
             kmax = min(kmax, int(max_order))
         self.kmax = max(kmax, 0)
+        # grid: at least _OVERSAMPLE cells per period of the highest order kept, a fast FFT
+        # length, and at least P cells so that every coefficient up to P/2 is read off it
+        import scipy.fft
 
-    def spread_blocks(self, block_theta, delta, y, v, buf_g, buf_fl, buf_n, buf_w, write_real: bool):
+        self.G = G = scipy.fft.next_fast_len(max(P, _OVERSAMPLE * max(self.kmax, 1)), real=True)
+        # cells touched from a block's start cell: at most one block's angle step; a tail of
+        # that many cells past G takes them without a modulo, folded back in coefficients()
+        step = float(np.max(np.diff(ang.block_theta))) * r * G
+        self.tail = int(math.ceil(step)) + 3
+        self.fast = G + self.tail < (1 << 24)          # cell numbers exact in float32
+        # linear B-spline (tent) spreading through the moments per left cell: S0 + j S1,
+        # S_p = sum y mu^p
+        self.grid = np.zeros(G + self.tail, dtype=np.complex64)
+
+    def spread_blocks(self, block_theta, delta, y, v, buf_g, buf_fl, buf_n, write_real: bool):
         """Spread samples given as block angle (float64) + offsets (float32) with weights y.
 
         ``block_theta`` has shape (m,), ``delta``, ``y`` and the complex buffer ``v``
@@ -372,21 +379,17 @@ class _Shaft:
         fl = buf_fl[: m * _BLOCK].reshape(m, _BLOCK)
         np.floor(g, out=fl)                              # whole cells (g >= 0)
         g -= fl                                          # fractional part mu
-        # cubic B-spline spreading through the moments S0..S3 of mu per left cell (two complex
-        # accumulations); coefficients() turns them into the four kernel weights
+        # tent spreading through the moments S0, S1 of mu per left cell (one complex
+        # accumulation); coefficients() turns them into the two kernel weights
         if write_real:
             v.real[...] = y
         np.multiply(y, g, out=v.imag)                    # y mu
-        w = buf_w[: m * _BLOCK].reshape(m, _BLOCK)
-        np.multiply(v.imag, g, out=w.real)               # y mu^2
-        np.multiply(w.real, g, out=w.imag)               # y mu^3
         if self.fast:
             n = buf_n[: m * _BLOCK].reshape(m, _BLOCK)
             np.add(fl, base_cell.astype(np.float32), out=n, casting="unsafe")
         else:
             n = fl.astype(np.int64) + base_cell.astype(np.int64)
         np.add.at(self.grid, n.ravel(), v.ravel())
-        np.add.at(self.grid2, n.ravel(), w.ravel())
 
     def spread_exact(self, theta, y):
         """Spread a few samples with float64 angles ``theta`` (tach rev) and weights ``y``."""
@@ -395,7 +398,6 @@ class _Shaft:
         mu = g - n
         c0 = n.astype(np.int64) % self.G
         np.add.at(self.grid, c0, (y + 1j * (y * mu)).astype(np.complex64))
-        np.add.at(self.grid2, c0, (y * mu * mu + 1j * (y * mu ** 3)).astype(np.complex64))
 
     def add_edges(self, xs, ang: _Angles):
         """Samples within _EDGE_HALF of a boundary, weighted by a smooth (erf) step."""
@@ -421,20 +423,16 @@ class _Shaft:
 
         P, G = self.P, self.G
         S0, S1 = self.grid.real.astype(np.float64), self.grid.imag.astype(np.float64)
-        S2, S3 = self.grid2.real.astype(np.float64), self.grid2.imag.astype(np.float64)
         L = S0.size
-        ext = np.zeros(L + 3)                            # ext[c + 1] = weight sum of cell c
-        ext[0:L] += (S0 - 3 * S1 + 3 * S2 - S3) / 6      # cell n - 1
-        ext[1:L + 1] += (4 * S0 - 6 * S2 + 3 * S3) / 6   # cell n
-        ext[2:L + 2] += (S0 + 3 * S1 + 3 * S2 - 3 * S3) / 6   # cell n + 1
-        ext[3:L + 3] += S3 / 6                           # cell n + 2
-        folded = ext[1:G + 1].copy()                     # cells 0 .. G-1
-        folded[G - 1] += ext[0]                          # cell -1
-        tail = ext[G + 1:]                               # cells G .. G + tail + 1
+        ext = np.zeros(L + 1)                            # ext[c] = weight sum of cell c
+        ext[0:L] += S0 - S1                              # cell n: weight 1 - mu
+        ext[1:L + 1] += S1                               # cell n + 1: weight mu
+        folded = ext[:G].copy()                          # cells 0 .. G-1
+        tail = ext[G:]                                   # cells G .. G + tail
         folded[: tail.size] += tail
         spec = scipy.fft.rfft(folded)[: P // 2 + 1]
         kk = np.arange(P // 2 + 1, dtype=np.float64)
-        coef = spec * (self.r / self.N) / np.sinc(kk / G) ** 4
+        coef = spec * (self.r / self.N) / np.sinc(kk / G) ** 2
         coef[self.kmax + 1:] = 0.0
         return coef
 
@@ -447,7 +445,7 @@ def _average_shafts(xs: np.ndarray, ang: _Angles, shafts: list[_Shaft]) -> None:
     C = _CHUNK_BLOCKS * _BLOCK
     delta, dtheta = np.empty(C, np.float32), np.empty(C, np.float32)
     buf_g, buf_fl, buf_y = np.empty(C, np.float32), np.empty(C, np.float32), np.empty(C, np.float32)
-    buf_v, buf_w = np.empty(C, np.complex64), np.empty(C, np.complex64)
+    buf_v = np.empty(C, np.complex64)
     buf_n = np.empty(C, dtype=np.int32)
     for j0 in range(j_lo, j_hi, _CHUNK_BLOCKS):
         j1 = min(j0 + _CHUNK_BLOCKS, j_hi)
@@ -467,10 +465,10 @@ def _average_shafts(xs: np.ndarray, ang: _Angles, shafts: list[_Shaft]) -> None:
                 flat = ys.reshape(-1)
                 flat[: max(s.k0 - c0, 0)] = 0.0
                 flat[max(s.k1 - c0, 0):] = 0.0
-                s.spread_blocks(th0, de, ys, v, buf_g, buf_fl, buf_n, buf_w, True)
+                s.spread_blocks(th0, de, ys, v, buf_g, buf_fl, buf_n, True)
                 real_holds_y = False
             else:
-                s.spread_blocks(th0, de, y, v, buf_g, buf_fl, buf_n, buf_w, not real_holds_y)
+                s.spread_blocks(th0, de, y, v, buf_g, buf_fl, buf_n, not real_holds_y)
                 real_holds_y = True
     for s in shafts:
         s.add_edges(xs, ang)
@@ -531,7 +529,7 @@ def tsa(x, fs, profile, *, shaft_order: float = 1.0, shaft: str = "", samples_pe
     -----
     The average is computed as its Fourier series from the time samples, each
     weighted by the angle it spans, folded onto one revolution with a non-uniform FFT
-    (cubic B-spline kernel, 8 grid cells per output sample); see the module docstring.  Noise that is not synchronous with the shaft falls as ``1/sqrt(N)``
+    (tent kernel, at least 32 grid cells per period of the highest order); see the module docstring.  Noise that is not synchronous with the shaft falls as ``1/sqrt(N)``
     and the comb response is :func:`tsa_comb_response`.
 
     References
