@@ -778,20 +778,20 @@ class CursorTools(QWidget):
 
     def __init__(self, cursor_set: CursorSet, overlay=None, session=None, history=None,
                  parent: QWidget | None = None):
-        from PySide6.QtWidgets import QHBoxLayout, QPushButton
+        from PySide6.QtWidgets import QPushButton, QSizePolicy
 
-        from PySide6.QtWidgets import QSizePolicy
+        from workbench.flow_layout import FlowLayout
 
         super().__init__(parent)
         self.cursor_set = cursor_set
         self.overlay = overlay
         self.session = session
         self.history = history
-        # the row never widens the window: on a narrow window its end is cut off
-        self.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Fixed)
-        layout = QHBoxLayout(self)
-        layout.setContentsMargins(0, 0, 0, 0)
-        layout.setSpacing(6)
+        # the row never widens the window: on a narrow window it wraps onto a second line
+        policy = QSizePolicy(QSizePolicy.Policy.Preferred, QSizePolicy.Policy.Preferred)  # Fixed would cap at one line
+        policy.setHeightForWidth(True)
+        self.setSizePolicy(policy)
+        layout = FlowLayout(self, h_spacing=6, v_spacing=4)
         self.buttons: dict[str, QPushButton] = {}
         for key, text, tip, slot in (
             ("harmonic", "Harmonic cursor", "A fundamental to drag; its harmonics follow "
@@ -811,9 +811,7 @@ class CursorTools(QWidget):
             self.buttons[key] = button
         if overlay is not None:
             self.legend = overlay.legend_widget()
-            layout.addWidget(self.legend, 1)
-        else:
-            layout.addStretch(1)
+            layout.addWidget(self.legend)
         cursor_set.updated.connect(self._sync_buttons)
         self._sync_buttons()
         self._writing = False
@@ -893,18 +891,20 @@ class CursorTools(QWidget):
             self.restore()
 
 
-def attach_to_view(view, *, plot=None, families=None) -> CursorTools:
+def attach_to_view(view, *, plot=None, families=None, labelled=None) -> CursorTools:
     """Give a workbench view model lines, cursors, a cursor readout and the tool row.
 
-    Sets ``view.overlay`` (:class:`workbench.overlays.ModelOverlay`),
+    ``families`` are the model-line families shown at first and ``labelled`` those whose
+    lines carry their names.  Sets ``view.overlay`` (:class:`workbench.overlays.ModelOverlay`),
     ``view.cursor_set``, ``view.cursor_readout`` and ``view.cursor_tools``; the
     tool row goes above the plot and the readout below it in ``view._layout``.
     Call :func:`show_on_view` whenever the view redraws its curve.
     """
-    from workbench.overlays import DEFAULT_ON, ModelOverlay
+    from workbench.overlays import DEFAULT_LABELLED, DEFAULT_ON, ModelOverlay
 
     plot = view.plot if plot is None else plot
-    view.overlay = ModelOverlay(plot, visible=DEFAULT_ON if families is None else families, parent=view)
+    view.overlay = ModelOverlay(plot, visible=DEFAULT_ON if families is None else families,
+                                labelled=DEFAULT_LABELLED if labelled is None else labelled, parent=view)
     view.cursor_set = CursorSet(plot, view=view.name, parent=view)
     view.cursor_readout = CursorReadout(view.cursor_set)
     view.cursor_tools = CursorTools(view.cursor_set, view.overlay, view.session)

@@ -17,7 +17,7 @@ from typing import Any
 from PySide6.QtCore import QSettings, Qt, QTimer, Signal
 from PySide6.QtGui import QAction, QKeySequence
 from PySide6.QtWidgets import (QComboBox, QDockWidget, QFileDialog, QHBoxLayout, QLabel, QMainWindow,
-                               QProgressBar, QPushButton, QSplitter, QTabWidget, QVBoxLayout, QWidget)
+                               QProgressBar, QPushButton, QSizePolicy, QSplitter, QTabWidget, QVBoxLayout, QWidget)
 
 from workbench import theme
 from workbench.jobs import AnalysisRunner
@@ -135,7 +135,10 @@ class MainWindow(QMainWindow):
 
     def showEvent(self, event):  # noqa: N802 - Qt override
         super().showEvent(event)
-        self.resizeDocks(list(self._docks), [410, 380], Qt.Orientation.Horizontal)
+        # side docks in proportion to the window: the views keep about half of a laptop screen's width
+        width = self.width()
+        self.resizeDocks(list(self._docks), [max(270, min(410, width // 4)), max(285, min(380, width * 23 // 100))],
+                         Qt.Orientation.Horizontal)
 
     def paintEvent(self, event):  # noqa: N802 - Qt override
         super().paintEvent(event)
@@ -154,12 +157,14 @@ class MainWindow(QMainWindow):
         top = QHBoxLayout()
         top.addWidget(QLabel("Shaft"))
         self.shaft_combo = QComboBox()
-        self.shaft_combo.setMinimumWidth(160)
+        self.shaft_combo.setSizeAdjustPolicy(QComboBox.SizeAdjustPolicy.AdjustToMinimumContentsLengthWithIcon)
+        self.shaft_combo.setMinimumContentsLength(12)
         self.shaft_combo.setToolTip("The shaft shown by the speed, spectrum-order, TSA and cepstrum views")
         self.shaft_combo.currentTextChanged.connect(self._on_shaft_combo)
         top.addWidget(self.shaft_combo)
         self.file_label = QLabel("")
         self.file_label.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        self.file_label.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)  # a long path is cut
         top.addSpacing(16)
         top.addWidget(self.file_label, 1)
         layout.addLayout(top)

@@ -20,6 +20,11 @@ the table's (mean) speed, and when a speed range is given a short horizontal bar
 near the top of each line spans the positions from the lowest to the highest
 speed of the record.
 
+Labels: the lines of the ``labelled`` families (mesh harmonics on the spectrum, shaft
+harmonics and bearings on the envelope spectrum) carry their name near the top of
+the plot, in a few staggered rows; lower harmonics are labelled first and a label
+that would overlap another in every row is left out (hovering still names it).
+
 Performance: each (family, colour) pair is ONE ``PlotCurveItem`` drawn with
 ``connect="pairs"``, created once and updated with ``setData``; all are added
 with ``ignoreBounds=True`` so they never change the autorange.  Hovering finds
@@ -36,10 +41,11 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import QObject, Qt, Signal
 from PySide6.QtGui import QAction
-from PySide6.QtWidgets import QHBoxLayout, QLabel, QMenu, QToolButton, QWidget
+from PySide6.QtWidgets import QLabel, QMenu, QSizePolicy, QToolButton, QWidget
 
 from dsp.explain import ModelLine, axis_scale, model_lines
 from workbench import theme
+from workbench.flow_layout import FlowLayout
 
 FAMILIES = ("mesh harmonics", "sidebands", "shaft harmonics", "planetary", "bearings")
 #: Families shown when an overlay is created.
@@ -56,6 +62,13 @@ _STYLE = {
 HOVER_PX = 5.0
 #: Height of the speed-spread bar, as a fraction of the view height below the top.
 SPREAD_Y = 0.97
+#: Families whose lines are labelled when an overlay is created.
+DEFAULT_LABELLED = ("mesh harmonics",)
+#: Most labels drawn at once, and the rows they are staggered in.
+N_LABELS = 16
+N_LABEL_ROWS = 3
+#: Approximate width of one label character, screen px (overlap test only).
+LABEL_CHAR_PX = 6.5
 
 
 @dataclass
@@ -90,8 +103,12 @@ class ModelOverlay(QObject):
     changed = Signal()
 
     def __init__(self, plot_item: pg.PlotItem, *, n_harmonics: int = 5, n_sidebands: int = 3,
-                 visible=DEFAULT_ON, parent: QObject | None = None):
+                 visible=DEFAULT_ON, labelled=DEFAULT_LABELLED, parent: QObject | None = None):
         super().__init__(parent)
+        self.labelled = tuple(labelled)
+        for name in self.labelled:
+            self._check_family(name)
+        self.labels: list[pg.TextItem] = []     # reused label items (see _place_labels)
         self.plot_item = plot_item
         self.n_harmonics = int(n_harmonics)
         self.n_sidebands = int(n_sidebands)
@@ -111,6 +128,7 @@ class ModelOverlay(QObject):
         self.hover_item.setVisible(False)
         plot_item.addItem(self.hover_item, ignoreBounds=True)
         plot_item.getViewBox().sigYRangeChanged.connect(self._on_y_range)
+        plot_item.getViewBox().sigXRangeChanged.connect(self._place_labels)
         scene = plot_item.scene()
         if scene is not None:
             scene.sigMouseMoved.connect(self._on_mouse_moved)
@@ -135,6 +153,7 @@ class ModelOverlay(QObject):
                 items.lines.setVisible(bool(on) and items.x.size > 0)
                 items.spread.setVisible(bool(on) and items.x_lo.size > 0)
         self._rebuild_hover()
+        self._place_labels()
         self.changed.emit()
 
     def shaft_colours(self) -> dict[str, str]:
@@ -170,6 +189,7 @@ class ModelOverlay(QObject):
             for items in self._items.values():
                 _clear(items)
             self._rebuild_hover()
+            self._place_labels()
             self.changed.emit()
             return
         self.scale = float(scale) if scale is not None else axis_scale(table, axis, order_shaft=order_shaft)
@@ -266,6 +286,47 @@ class ModelOverlay(QObject):
             else:
                 items.spread.setData([], [])
             items.spread.setVisible(self._visible[family] and m > 0)
+        self._place_labels()
+
+    def label_texts(self) -> list[tuple[float, str]]:
+        """``(x, text)`` of the labels shown, left to right (display units)."""
+        return sorted((float(t.pos().x()), t.textItem.toPlainText()) for t in self.labels if t.isVisible())
+
+    def _place_labels(self, *_args) -> None:
+        """Name the lines of the labelled families that are in view, in staggered rows, without overlaps."""
+        wanted = [line for line in self._lines if line.group in self.labelled and self._visible[line.group]
+                  and not line.family.endswith((" hunting tooth", " assembly phase"))]
+        shown: list[tuple[float, int, str, str]] = []
+        if wanted and self.table is not None:
+            vb = self.plot_item.getViewBox()
+            (x0, x1), (y0, y1) = vb.viewRange()
+            px = abs(vb.viewPixelSize()[0]) or 1.0
+            free = [-np.inf] * N_LABEL_ROWS      # right end of the last label in each row, px
+            for line in sorted(wanted, key=lambda ln: (ln.harmonic, ln.hz)):
+                x = line.hz * self.scale
+                if not x0 <= x <= x1 or len(shown) >= N_LABELS:
+                    continue
+                left = (x - x0) / px
+                row = next((r for r in range(N_LABEL_ROWS) if free[r] < left - 4), None)
+                if row is None:
+                    continue
+                text = _short(line.text)
+                free[row] = left + LABEL_CHAR_PX * len(text)
+                colour = self._colours.get(line.shaft or "", theme.FOREGROUND)
+                shown.append((x, row, text, colour))
+            step = (y1 - y0) * 0.055
+            top = y0 + 0.995 * (y1 - y0)
+        while len(self.labels) < len(shown):
+            item = pg.TextItem("", anchor=(0, 0), fill=pg.mkBrush(255, 255, 255, 200))
+            item.setZValue(6)
+            self.plot_item.addItem(item, ignoreBounds=True)
+            self.labels.append(item)
+        for i, item in enumerate(self.labels):
+            if i < len(shown):
+                x, row, text, colour = shown[i]
+                item.setText(text, color=colour)
+                item.setPos(x, top - row * step)
+            item.setVisible(i < len(shown))
 
     def _on_y_range(self, *_args) -> None:
         if self.table is not None:
@@ -301,6 +362,14 @@ class ModelOverlay(QObject):
             raise ValueError(f"Invalid value for 'family': allowed {', '.join(map(repr, FAMILIES))}, got {name!r}")
 
 
+def _short(text: str) -> str:
+    """A label for a line: "1 x GMF stage 1" -> "GMF stage 1", "2 x GMF stage 1" -> "2× GMF stage 1"."""
+    count, sep, rest = text.partition(" x ")
+    if sep and count.isdigit():
+        return rest if count == "1" else f"{count}× {rest}"
+    return text
+
+
 def _clear(items: _Items) -> None:
     items.x = items.x_lo = items.x_hi = np.empty(0)
     items.lines.setData([], [])
@@ -318,9 +387,10 @@ class OverlayLegend(QWidget):
     def __init__(self, overlay: ModelOverlay, parent: QWidget | None = None):
         super().__init__(parent)
         self.overlay = overlay
-        layout = QHBoxLayout(self)
-        layout.setContentsMargins(0, 0, 0, 0)
-        layout.setSpacing(6)
+        layout = FlowLayout(self, h_spacing=6, v_spacing=2)   # shaft names wrap on a narrow window
+        policy = QSizePolicy(QSizePolicy.Policy.Preferred, QSizePolicy.Policy.Preferred)  # Fixed would cap at one line
+        policy.setHeightForWidth(True)
+        self.setSizePolicy(policy)
         self.menu_button = QToolButton()
         self.menu_button.setText("Model lines")
         self.menu_button.setToolTip("Choose which model frequency families are drawn")
@@ -335,10 +405,7 @@ class OverlayLegend(QWidget):
             self.boxes[name] = action
         self.menu_button.setMenu(menu)
         layout.addWidget(self.menu_button)
-        self._shaft_row = QHBoxLayout()
-        self._shaft_row.setSpacing(6)
-        layout.addLayout(self._shaft_row)
-        layout.addStretch(1)
+        self._shaft_row = layout
         self.shaft_labels: list[QLabel] = []
         overlay.changed.connect(self.sync)
         self.sync()

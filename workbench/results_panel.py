@@ -98,8 +98,13 @@ class ResultsPanel(QWidget):
         self.suspects.itemActivated.connect(self._on_suspect)
         self.empty_suspects = QLabel("")
         self.empty_suspects.setWordWrap(True)
+        # the long title wraps in a label of its own: a group box title would set the dock's minimum width
+        title, _, note = SUSPECTS_TITLE.partition(" - ")
+        self.suspects_note = QLabel(note.capitalize() + ".")
+        self.suspects_note.setWordWrap(True)
+        self.suspects_note.setStyleSheet(f"color: {theme.CURVE_SECONDARY};")
         for title, widget, stretch in (
-            (SUSPECTS_TITLE, (self.empty_suspects, self.suspects), 3),
+            (title, (self.suspects_note, self.empty_suspects, self.suspects), 3),
             ("Overall (sensor units)", (self.overall,), 2),
             ("TSA indicators per shaft", (self.tsa,), 2),
             ("Sidebands: which shaft owns each family", (self.sidebands,), 2),

@@ -157,3 +157,39 @@ def test_lines_follow_the_view_height(plot, train):
     assert y.min() == pytest.approx(-3.0) and y.max() == pytest.approx(7.0)
     overlay.set_table(None)
     assert overlay.visible_positions().size == 0
+
+
+def test_mesh_harmonics_are_labelled_in_view_without_overlap(plot, train):
+    # GMF = 40 x 50 Hz = 2000 Hz (domain reference 1.1); the labels name the lines in view
+    overlay = ModelOverlay(plot, n_harmonics=3, n_sidebands=1)
+    plot.setXRange(0, 7000, padding=0)
+    overlay.set_table(frequency_table(train, 50.0))
+    shown = overlay.label_texts()
+    xs = [x for x, _ in shown]
+    assert xs == pytest.approx([2000.0, 4000.0, 6000.0])  # domain reference 1.1: GMF and harmonics
+    assert [t for _, t in shown][0].startswith("GMF ") and shown[1][1].startswith("2× GMF ")
+    # zoomed onto the second harmonic: only its label stays
+    plot.setXRange(3500, 4500, padding=0)
+    assert [x for x, _ in overlay.label_texts()] == pytest.approx([4000.0])
+    # a hidden family loses its labels too
+    overlay.set_family_visible("mesh harmonics", False)
+    assert overlay.label_texts() == []
+
+
+def test_labels_never_share_a_row_where_they_would_overlap(plot, train):
+    # 200 harmonics crowd the axis: at most N_LABELS, and labels in one row stay apart
+    from workbench.overlays import LABEL_CHAR_PX, N_LABELS
+
+    overlay = ModelOverlay(plot, n_harmonics=200, n_sidebands=0)
+    plot.setXRange(0, 400_000, padding=0)
+    overlay.set_table(frequency_table(train, 50.0))
+    labels = [t for t in overlay.labels if t.isVisible()]
+    assert 0 < len(labels) <= N_LABELS
+    px = abs(plot.getViewBox().viewPixelSize()[0])
+    rows: dict[float, list[tuple[float, str]]] = {}
+    for t in labels:
+        rows.setdefault(round(t.pos().y(), 9), []).append((t.pos().x() / px, t.textItem.toPlainText()))
+    for row in rows.values():
+        row.sort()
+        for (x0, text0), (x1, _) in zip(row, row[1:]):
+            assert x1 - x0 >= LABEL_CHAR_PX * len(text0)  # common practice, no source: labels must not overlap

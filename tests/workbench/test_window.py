@@ -73,8 +73,10 @@ def test_demo_opens_with_every_view_drawn(qtbot, window):
     np.testing.assert_allclose(x_cpm, 60.0 * x_hz)  # 1 Hz = 60 CPM, common practice, no source
     # orders of the selected shaft: the stage 1 GMF of the input shaft sits at order 23 (domain reference 1.1)
     window.session.set_view_options(spectrum_x="order", spectrum_log_y=False)
-    gmf_marks = [m.value() for m in spectrum.marks if m.isVisible()]
-    assert gmf_marks[0] == pytest.approx(23.0, rel=1e-9)  # GMF order = Z on the driver shaft, domain reference 1.1
+    gmf_lines = spectrum.overlay.positions("mesh harmonics")
+    assert np.min(np.abs(gmf_lines - 23.0)) < 1e-9  # GMF order = Z on the driver shaft, domain reference 1.1
+    labels = dict((round(x, 6), text) for x, text in spectrum.overlay.label_texts())
+    assert labels[23.0] == "GMF stage 1"   # the model line at order 23 is labelled with its mesh
     x_ord, y = spectrum.curve.getData()
     near = (x_ord > 22.5) & (x_ord < 23.5)
     assert x_ord[near][np.argmax(y[near])] == pytest.approx(23.0, abs=0.05)   # the mesh line is at 23 orders
@@ -342,3 +344,20 @@ def test_unexpected_error_is_shown_not_swallowed(qtbot, tmp_path, caplog):
     assert "ZeroDivisionError" in blocker.args[0]  # conventions.md rule 5: unexpected errors are shown
     assert "Unexpected error" in w.banner.plain_text() and "ZeroDivisionError" in w.status_label.text()  # conventions.md rule 5, no outside source
     assert "ZeroDivisionError" in caplog.text                       # logged with its traceback
+
+
+def test_window_fits_a_laptop_screen(qtbot, window):
+    # 1280x720 is a common laptop screen (common practice, no source): no control row or dock may force it wider
+    open_demo(qtbot, window)
+    window.resize(1280, 720)
+    qtbot.waitUntil(lambda: window.size().toTuple() == (1280, 720), timeout=5000)
+    hint = window.minimumSizeHint()
+    assert hint.width() <= 1280 and hint.height() <= 720, hint
+    for name in ("spectrum", "envelope"):
+        window.session.set_current_view(name)
+        view = window.views[name]
+        tools = view.cursor_tools
+        qtbot.waitUntil(lambda: tools.isVisible() and tools.legend.geometry().bottom() < tools.height(), timeout=5000)
+        # the wrapped controls stay inside the view, the plot keeps most of the height
+        assert view.cursor_tools.geometry().right() < view.width()
+        assert view.plot.getViewWidget().height() > 250   # common practice, no source: the data keeps the room

@@ -1,5 +1,8 @@
 """What every analysis view shares: a row of controls above one or more plots.
 
+The controls sit in a :class:`workbench.flow_layout.FlowLayout`: on a narrow window
+they wrap onto a second line instead of widening it.
+
 A view is a thin subscriber: it reads the :class:`workbench.session.Session` and the
 latest :class:`dsp.analysis.Analysis`, draws with ``setData`` on items it created
 once, and writes user choices back to the session.  It never computes signal
@@ -13,9 +16,10 @@ from typing import Any
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt
-from PySide6.QtWidgets import QHBoxLayout, QLabel, QSizePolicy, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QLabel, QSizePolicy, QVBoxLayout, QWidget
 
 from workbench import theme
+from workbench.flow_layout import FlowLayout
 from workbench.session import Session, SessionEvent
 
 G_N = 9.80665  # m/s2 per g, exact by definition (3rd CGPM 1901)
@@ -38,8 +42,7 @@ class AnalysisView(QWidget):
         self._layout = QVBoxLayout(self)
         self._layout.setContentsMargins(4, 4, 4, 4)
         self._layout.setSpacing(4)
-        self.controls = QHBoxLayout()
-        self.controls.setSpacing(8)
+        self.controls = FlowLayout(h_spacing=8, v_spacing=4)
         self._layout.addLayout(self.controls)
         self.caption = QLabel("")
         self.caption.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)

@@ -1,10 +1,11 @@
 """Envelope spectrum view, with the kurtogram map that chose the band.
 
 The envelope band is shown in the caption and on the kurtogram; it comes from the
-kurtogram unless the analyst dragged one on the spectrum view.  Marks show the
-rotation rate of the selected shaft and its harmonics, and the defect frequencies
-of the bearings on that shaft.  Model lines of every shaft and bearing, cursors and
-their readout come from :mod:`workbench.overlays` and :mod:`workbench.cursors`.
+kurtogram unless the analyst dragged one on the spectrum view.  Model lines of every
+shaft and bearing (shaft-rate harmonics and bearing defect frequencies labelled),
+cursors and their readout come from :mod:`workbench.overlays` and
+:mod:`workbench.cursors`.  The x range reaches about five times the highest of the
+selected shaft's first three rate harmonics and its bearings' defect frequencies.
 """
 
 from __future__ import annotations
@@ -15,9 +16,8 @@ from PySide6.QtWidgets import QCheckBox
 
 from workbench import theme
 from workbench.cursors import attach_to_view, show_on_view
-from workbench.views.base import AnalysisView, place_mark
+from workbench.views.base import AnalysisView
 
-N_MARKS = 10
 BEARING_KEYS = (("bpfo_hz", "BPFO"), ("bpfi_hz", "BPFI"), ("bsf_hz", "BSF"), ("ftf_hz", "FTF"))
 
 
@@ -34,17 +34,8 @@ class EnvelopeView(AnalysisView):
         self.curve = self.plot.plot(pen=pg.mkPen(theme.CURVE, width=1))
         self.curve.setClipToView(True)
         self.curve.setDownsampling(auto=True, method="peak")
-        self.marks = []
-        for i in range(N_MARKS):
-            # labels staggered in height so marks close together stay readable
-            line = pg.InfiniteLine(angle=90, movable=False, label="",
-                                   labelOpts={"position": 0.96 - 0.045 * (i % 7), "color": theme.FOREGROUND,
-                                              "fill": (255, 255, 255, 210)})
-            line.setVisible(False)
-            self.plot.addItem(line, ignoreBounds=True)
-            self.marks.append(line)
         # model lines (shaft rates and bearing frequencies shown first), cursors and their readout
-        attach_to_view(self, families=("shaft harmonics", "bearings"))
+        attach_to_view(self, families=("shaft harmonics", "bearings"), labelled=("shaft harmonics", "bearings"))
         self.kurt_plot = self.add_plot(x_label="frequency (Hz)", y_label="level", stretch=2)
         self.kurt_widget = self.last_plot_widget
         self.image = pg.ImageItem(axisOrder="row-major")
@@ -78,7 +69,6 @@ class EnvelopeView(AnalysisView):
         squared = getattr(env, "squared", False)
         self.plot.setLabel("left", f"{'squared envelope' if squared else 'envelope'} ({units}{'²' if squared else ''})")
         shaft = self.session.selected_shaft
-        self._draw_marks(shaft)
         self._show_model_lines(freq, amp, units + ("²" if squared else ""))
         top = self._top_frequency(shaft)
         self.plot.setXRange(0, top if top else float(freq[-1]), padding=0)
@@ -103,28 +93,19 @@ class EnvelopeView(AnalysisView):
                      units=units)
 
     def _top_frequency(self, shaft: str | None) -> float | None:
-        """Show up to ~5x the highest marked frequency, so the fault lines are readable."""
-        values = [line.value() for line in self.marks if line.isVisible()]
+        """About 5x the highest frequency of interest of ``shaft``, so the fault lines are readable."""
+        values = self.marked_frequencies(shaft)
         return 5.0 * max(values) if values else None
 
-    def _draw_marks(self, shaft: str | None) -> None:
+    def marked_frequencies(self, shaft: str | None) -> list[float]:
+        """The selected shaft's rate x 1, 2, 3 and the defect frequencies of its bearings, Hz."""
         table = getattr(self.analysis, "frequencies", None)
-        marks = []
         rate = self.shaft_rate_hz(shaft)
-        if rate:
-            marks += [(f"{h}× {shaft}", h * rate, theme.shaft_colour(self.analysis.model, shaft)) for h in (1, 2, 3)]
+        values = [h * rate for h in (1, 2, 3)] if rate else []
         for bearing in getattr(table, "bearings", ()) or ():
-            if bearing.shaft != shaft:
-                continue
-            for key, text in BEARING_KEYS:
-                value = getattr(bearing, key, None)
-                if value:
-                    marks.append((f"{bearing.name} {text}", float(value), theme.MARK_REPAIRED))
-        for line, mark in zip(self.marks, marks[:N_MARKS] + [None] * (N_MARKS - min(len(marks), N_MARKS))):
-            if mark is None:
-                line.setVisible(False)
-                continue
-            place_mark(line, mark[1], mark[0], pg.mkPen(mark[2], width=1, style=pg.QtCore.Qt.PenStyle.DashLine))
+            if bearing.shaft == shaft:
+                values += [float(v) for v in (getattr(bearing, key, None) for key, _ in BEARING_KEYS) if v]
+        return values
 
     def _draw_kurtogram(self, show: bool) -> None:
         self.kurt_widget.setVisible(show)

@@ -3,27 +3,25 @@
 x axis in Hz, cycles per minute (CPM) or orders of the selected shaft (the order
 spectrum from angular resampling when the amplitude is an acceleration, the
 frequency spectrum divided by the shaft's mean rate for velocity).  Amplitude in g,
-m/s2 or mm/s (the velocity spectrum of the analysis).  Marks show the gear mesh
-frequency (GMF) harmonics of the meshes on the selected shaft.  The orange region,
+m/s2 or mm/s (the velocity spectrum of the analysis).  The orange region,
 shown with "Choose envelope band", sets the envelope band and re-runs the analysis.
-Model lines (switchable families, coloured by shaft), harmonic and sideband cursors
-and their readout come from :mod:`workbench.overlays` and :mod:`workbench.cursors`.
+Model lines (switchable families, coloured by shaft, the gear mesh frequency (GMF)
+harmonics labelled), harmonic and sideband cursors and their readout come from
+:mod:`workbench.overlays` and :mod:`workbench.cursors`.
 """
 
 from __future__ import annotations
 
 import numpy as np
 import pyqtgraph as pg
-from PySide6.QtWidgets import QCheckBox, QComboBox, QDoubleSpinBox, QHBoxLayout, QLabel, QPushButton
+from PySide6.QtWidgets import QCheckBox, QComboBox, QDoubleSpinBox, QHBoxLayout, QLabel, QPushButton, QWidget
 
 from workbench import theme
 from workbench.cursors import attach_to_view, show_on_view
-from workbench.views.base import AnalysisView, convert_acceleration, place_mark, positive_for_log
+from workbench.views.base import AnalysisView, convert_acceleration, positive_for_log
 
 X_CHOICES = (("hz", "Hz"), ("cpm", "CPM"), ("order", "orders"))
 Y_CHOICES = (("g", "g"), ("m/s2", "m/s²"), ("mm/s", "mm/s"))
-N_MARKS = 12
-N_GMF_HARMONICS = 3
 
 
 class SpectrumView(AnalysisView):
@@ -57,31 +55,22 @@ class SpectrumView(AnalysisView):
             self.controls.addWidget(QLabel(text))
             self.controls.addWidget(widget)
         self.controls.addWidget(self.log_box)
-        self.controls.addSpacing(12)
         self.controls.addWidget(self.band_button)
         self.controls.addWidget(self.auto_band)
-        self.finish_controls()
-        row = QHBoxLayout()
+        # the zoom band: one widget, so that it wraps as a whole on a narrow window
+        zoom_row = QWidget()
+        row = QHBoxLayout(zoom_row)
+        row.setContentsMargins(0, 0, 0, 0)
         row.setSpacing(6)
-        row.addWidget(QLabel("zoom band"))
+        row.addWidget(QLabel("zoom"))
         for widget in (self.centre_spin, self.span_spin, zoom, full):
             row.addWidget(widget)
-        row.addStretch(1)
-        self._layout.addLayout(row)
+        self.controls.addWidget(zoom_row)
+        self.finish_controls()
         self.plot = self.add_plot(x_label="frequency (Hz)", y_label="amplitude")
         self.curve = self.plot.plot(pen=pg.mkPen(theme.CURVE, width=1))
         self.curve.setClipToView(True)
         self.curve.setDownsampling(auto=True, method="peak")
-        self.marks = []
-        for i in range(N_MARKS):
-            # labels staggered in height so marks close together stay readable
-            line = pg.InfiniteLine(angle=90, movable=False, pen=pg.mkPen(theme.SHAFT_COLOURS[0], width=1,
-                                                                         style=pg.QtCore.Qt.PenStyle.DashLine),
-                                   label="", labelOpts={"position": 0.95 - 0.05 * (i % (2 * N_GMF_HARMONICS)),
-                                                        "color": theme.FOREGROUND, "fill": (255, 255, 255, 200)})
-            line.setVisible(False)
-            self.plot.addItem(line, ignoreBounds=True)
-            self.marks.append(line)
         self.band_region = pg.LinearRegionItem(brush=pg.mkBrush(*theme.REGION_BAND))
         self.band_region.setVisible(False)
         self.band_region.setZValue(10)
@@ -188,7 +177,6 @@ class SpectrumView(AnalysisView):
         unit_text = {"g": "g", "m/s2": "m/s²", "mm/s": "mm/s"}[units]
         self.plot.setLabel("left", f"amplitude ({unit_text} {scaling})")
         self.plot.setLabel("bottom", x_label)
-        self._draw_marks(scale, shaft)
         self._show_model_lines(x, y, scale, unit_text, exact_orders=options.spectrum_x == "order" and units != "mm/s")
         zoom = options.spectrum_zoom_hz
         if zoom is not None:
@@ -228,23 +216,6 @@ class SpectrumView(AnalysisView):
             self._updating = True
             self.band_region.setRegion((band[0] * scale, band[1] * scale))
             self._updating = False
-
-    def _draw_marks(self, scale: float, shaft: str | None) -> None:
-        table = getattr(self.analysis, "frequencies", None)
-        model = self.analysis.model
-        gmfs = [(m.name, m.gmf_hz) for m in getattr(table, "meshes", ()) or () if shaft in (m.driver, m.driven)]
-        # planetary stages: the mesh frequency belongs to the sun and the carrier shafts
-        stages = {p.name: p for p in getattr(model, "planetary", ()) or ()}
-        gmfs += [(p.name, p.mesh_hz) for p in getattr(table, "planetary", ()) or ()
-                 if p.name in stages and shaft in (stages[p.name].sun_shaft, stages[p.name].carrier_shaft)]
-        colour = theme.shaft_colour(model, shaft)
-        marks = [(f"{name} GMF×{h}" if h > 1 else f"{name} GMF", h * gmf_hz * scale)
-                 for name, gmf_hz in gmfs for h in range(1, N_GMF_HARMONICS + 1)]
-        for i, (line, mark) in enumerate(zip(self.marks, marks + [None] * (N_MARKS - len(marks)))):
-            if mark is None:
-                line.setVisible(False)
-                continue
-            place_mark(line, mark[1], mark[0], pg.mkPen(colour, width=1, style=pg.QtCore.Qt.PenStyle.DashLine))
 
 
 def _spin(prefix: str, suffix: str, lo: float, hi: float, value: float) -> QDoubleSpinBox:
