@@ -23,12 +23,7 @@ from workbench import theme
 from workbench.jobs import AnalysisRunner
 from workbench.results_panel import ResultsPanel
 from workbench.session import VIEW_NAMES, Session
-from workbench.views.cepstrum import CepstrumView
-from workbench.views.envelope import EnvelopeView
-from workbench.views.spectrum import SpectrumView
-from workbench.views.speed import SpeedView
-from workbench.views.tsa import TsaView
-from workbench.views.waveform import WaveformView
+from workbench.views import VIEW_CLASSES, view_class
 
 log = logging.getLogger(__name__)
 
@@ -170,8 +165,8 @@ class MainWindow(QMainWindow):
         layout.addLayout(top)
         self.tabs = QTabWidget()
         self.views = {}
-        for cls in (WaveformView, SpeedView, SpectrumView, TsaView, EnvelopeView, CepstrumView):
-            view = cls(self.session)
+        for name in VIEW_CLASSES:
+            view = view_class(name)(self.session)
             self.views[view.name] = view
             self.tabs.addTab(view, view.title)
         self.tabs.setCurrentWidget(self.views[self.session.current_view])

@@ -19,10 +19,11 @@ from pathlib import Path
 from typing import Any, Callable, Iterable
 
 from dsp.analysis import Settings
+from workbench.views import VIEW_CLASSES
 
 SCHEMA = "gearbench.session/1"
 
-VIEW_NAMES = ("waveform", "speed", "spectrum", "tsa", "envelope", "cepstrum")
+VIEW_NAMES = tuple(VIEW_CLASSES)          # one registry of views: workbench.views.VIEW_CLASSES
 SPECTRUM_X_UNITS = ("hz", "cpm", "order")
 SPECTRUM_Y_UNITS = ("g", "m/s2", "mm/s")
 TSA_SIGNALS = ("average", "residual", "difference")

@@ -35,19 +35,12 @@ from pathlib import Path
 from typing import Any
 
 from dsp.errors import GearbenchError
+from workbench.views import VIEW_CLASSES, view_class
 
 SCHEMA = "gearbench.snapshot/1"
 DEFAULT_SIZE_PX = (1100, 620)
 MIN_SIZE_PX, MAX_SIZE_PX = 200, 8000
 HEADER_PX = 26
-VIEW_CLASSES = {
-    "waveform": ("workbench.views.waveform", "WaveformView"),
-    "speed": ("workbench.views.speed", "SpeedView"),
-    "spectrum": ("workbench.views.spectrum", "SpectrumView"),
-    "tsa": ("workbench.views.tsa", "TsaView"),
-    "envelope": ("workbench.views.envelope", "EnvelopeView"),
-    "cepstrum": ("workbench.views.cepstrum", "CepstrumView"),
-}
 
 
 class SnapshotError(GearbenchError):
@@ -271,15 +264,12 @@ def make_view(recipe: dict[str, Any], analysis: Any, recording: Any = None):
 
     Returns ``(view, session)``; the caller closes the view.
     """
-    import importlib
-
     from PySide6.QtCore import Qt
     from PySide6.QtWidgets import QApplication, QLayout
 
     app = QApplication.instance()
     name = recipe["view"]["name"]
-    module, cls_name = VIEW_CLASSES[name]
-    cls = getattr(importlib.import_module(module), cls_name)
+    cls = view_class(name)
     session = session_for_recipe(recipe, analysis.model)
     view = cls(session)
     view.setAttribute(Qt.WidgetAttribute.WA_DontShowOnScreen, True)

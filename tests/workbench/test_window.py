@@ -361,3 +361,15 @@ def test_window_fits_a_laptop_screen(qtbot, window):
         # the wrapped controls stay inside the view, the plot keeps most of the height
         assert view.cursor_tools.geometry().right() < view.width()
         assert view.plot.getViewWidget().height() > 250   # common practice, no source: the data keeps the room
+
+
+def test_one_registry_of_views(window):
+    # workbench.views.VIEW_CLASSES is the one list: the session's names, the tabs and the snapshots read it
+    from workbench import snapshot
+    from workbench.session import VIEW_NAMES
+    from workbench.views import VIEW_CLASSES, view_class
+
+    assert VIEW_NAMES == tuple(VIEW_CLASSES) == tuple(window.views)
+    assert snapshot.VIEW_CLASSES is VIEW_CLASSES
+    assert [window.tabs.widget(i).name for i in range(window.tabs.count())] == list(VIEW_CLASSES)
+    assert all(view_class(name).name == name for name in VIEW_CLASSES)
