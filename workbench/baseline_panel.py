@@ -21,13 +21,15 @@ from typing import Any
 
 import numpy as np
 from PySide6.QtCore import QObject, Qt, Signal
-from PySide6.QtGui import QColor, QFont
-from PySide6.QtWidgets import (QAbstractItemView, QCheckBox, QComboBox, QDoubleSpinBox, QFormLayout, QGroupBox,
-                               QHBoxLayout, QHeaderView, QLabel, QTableWidget, QTableWidgetItem, QVBoxLayout,
-                               QWidget)
+from PySide6.QtGui import QFont
+from PySide6.QtWidgets import (QCheckBox, QComboBox, QDoubleSpinBox, QFormLayout, QGroupBox, QHBoxLayout, QLabel,
+                               QVBoxLayout, QWidget)
 
 from dsp import severity
 from workbench import theme
+from workbench.results_panel import fill_table as _fill
+from workbench.results_panel import fmt
+from workbench.results_panel import make_table as _table
 
 #: Colour of every baseline curve (the theme's context-curve grey).
 BASELINE_COLOUR = theme.CURVE_SECONDARY
@@ -38,47 +40,6 @@ NO_BASELINE_TEXT = "No baseline loaded. File > Load baseline recording... compar
                    "healthy recording of the same gearbox."
 DB_NOTE = "dB: 20 log10 of the ratio for amplitudes (RMS, velocity, crest factor, FM0, ER); " \
           "10 log10 for kurtosis, FM4, NA4*, M6A, M8A."
-
-
-def fmt(value: Any) -> str:
-    """A number for a table cell: 4 significant digits, n/a for NaN."""
-    if isinstance(value, bool):
-        return "yes" if value else "no"
-    if isinstance(value, (int, float)):
-        if isinstance(value, float) and not math.isfinite(value):
-            return "n/a"
-        if isinstance(value, int):
-            return str(value)
-        magnitude = abs(value)
-        if magnitude != 0 and (magnitude < 1e-3 or magnitude >= 1e5):
-            return f"{value:.3e}"
-        return f"{value:.4g}"
-    return "" if value is None else str(value)
-
-
-def _table(columns: list[str]) -> QTableWidget:
-    table = QTableWidget(0, len(columns))
-    table.setHorizontalHeaderLabels(columns)
-    table.verticalHeader().setVisible(False)
-    table.verticalHeader().setDefaultSectionSize(20)
-    table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
-    table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
-    table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
-    table.horizontalHeader().setStretchLastSection(True)
-    return table
-
-
-def _fill(table: QTableWidget, rows: list[list[str]], colours: list[str | None] | None = None,
-          colour_column: int = 0) -> None:
-    table.setRowCount(len(rows))
-    for r, row in enumerate(rows):
-        for c, text in enumerate(row):
-            item = QTableWidgetItem(text)
-            if c > 0 and text[:1] in "+-.0123456789":
-                item.setTextAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
-            if colours and c == colour_column and colours[r]:
-                item.setForeground(QColor(colours[r]))
-            table.setItem(r, c, item)
 
 
 def _db(value: float) -> str:

@@ -75,6 +75,8 @@ def default_read(path: Path):
 
 
 class _Signals(QObject):
+    """What a job reports (generation first); the runner re-emits the same signals for the current job."""
+
     started = Signal(int)
     progress = Signal(int, float, str)
     finished = Signal(int, object)
@@ -134,7 +136,7 @@ class _Job(QRunnable):
             signals.finished.emit(gen, JobResult(gen, recording, analysis, time.perf_counter() - t0, request.lane))
 
 
-class AnalysisRunner(QObject):
+class AnalysisRunner(_Signals):
     """One worker thread; newest request wins.
 
     Parameters
@@ -146,12 +148,7 @@ class AnalysisRunner(QObject):
         ``read_fn(path) -> Recording``; the default is :func:`dsp.recording.read_recording`.
     """
 
-    started = Signal(int)
-    progress = Signal(int, float, str)
-    finished = Signal(int, object)
-    failed = Signal(int, str)
-    cancelled = Signal(int)
-    crashed = Signal(int, str, str)
+    # started, progress, finished, failed, cancelled, crashed: from _Signals
     busy_changed = Signal(bool)
 
     def __init__(self, parent: QObject | None = None, *, analyze_fn: Callable | None = None,

@@ -38,21 +38,23 @@ SUSPECTS_TITLE = "Suspects - an aid to your judgement, not a verdict"
 
 
 def fmt(value: Any) -> str:
+    """A number for a table cell: 4 significant digits, n/a for NaN (shared with the baseline panel)."""
     if isinstance(value, bool):
         return "yes" if value else "no"
     if isinstance(value, (int, float)):
         if isinstance(value, float) and not math.isfinite(value):
             return "n/a"
-        magnitude = abs(value)
         if isinstance(value, int):
             return str(value)
+        magnitude = abs(value)
         if magnitude != 0 and (magnitude < 1e-3 or magnitude >= 1e5):
             return f"{value:.3e}"
         return f"{value:.4g}"
     return "" if value is None else str(value)
 
 
-def _table(columns: list[str]) -> QTableWidget:
+def make_table(columns: list[str]) -> QTableWidget:
+    """A read-only table with one row selected at a time; columns fit their contents and scroll."""
     table = QTableWidget(0, len(columns))
     table.setHorizontalHeaderLabels(columns)
     table.verticalHeader().setVisible(False)
@@ -64,17 +66,21 @@ def _table(columns: list[str]) -> QTableWidget:
     return table
 
 
-def _fill(table: QTableWidget, rows: list[list[str]], colours: list[str | None] | None = None,
-          colour_column: int = 0) -> None:
+def fill_table(table: QTableWidget, rows: list[list[str]], colours: list[str | None] | None = None,
+               colour_column: int = 0) -> None:
+    """Put ``rows`` of text in ``table``: numbers right-aligned, ``colour_column`` in ``colours``."""
     table.setRowCount(len(rows))
     for r, row in enumerate(rows):
         for c, text in enumerate(row):
             item = QTableWidgetItem(text)
-            if c > 0 and not text[:1].isalpha():
+            if c > 0 and (text[:1] in "+-.0123456789" or text == "n/a"):
                 item.setTextAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
             if colours and c == colour_column and colours[r]:
                 item.setForeground(QColor(colours[r]))
             table.setItem(r, c, item)
+
+
+_table, _fill = make_table, fill_table
 
 
 class ResultsPanel(QWidget):

@@ -14,6 +14,7 @@ they can always be recomputed from it.
 from __future__ import annotations
 
 import dataclasses
+import math
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable, Iterable
@@ -303,14 +304,20 @@ def _default_shaft(model: Any) -> str | None:
     return tach_shaft if tach_shaft in names else names[0]
 
 
-def _jsonable(value: Any) -> Any:
+def plain_json(value: Any) -> Any:
+    """Plain JSON types: tuples become lists, paths text, NaN and infinity ``None`` (session, store, snapshots)."""
     if isinstance(value, dict):
-        return {str(k): _jsonable(v) for k, v in value.items()}
+        return {str(k): plain_json(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
-        return [_jsonable(v) for v in value]
+        return [plain_json(v) for v in value]
     if isinstance(value, Path):
         return str(value)
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
     return value
+
+
+_jsonable = plain_json
 
 
 def _dataclass_from_dict(cls: type, data: dict[str, Any]) -> Any:

@@ -527,16 +527,10 @@ def _type_names(types: type | tuple[type, ...]) -> str:
 
 
 def _plain(value: Any) -> Any:
-    """Plain JSON types (tuples become lists, paths text)."""
-    if isinstance(value, dict):
-        return {str(k): _plain(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_plain(v) for v in value]
-    if isinstance(value, Path):
-        return str(value)
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    return value
+    """Plain JSON types (tuples become lists, paths text): :func:`workbench.session.plain_json`."""
+    from workbench.session import plain_json
+
+    return plain_json(value)
 
 
 __all__ = ["SCHEMA", "AUTOSAVE_INTERVAL_S", "EXTRA_KEYS", "SessionFileError", "LoadedSession",

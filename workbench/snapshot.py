@@ -35,6 +35,7 @@ from pathlib import Path
 from typing import Any
 
 from dsp.errors import GearbenchError
+from workbench.session import plain_json as _jsonable
 from workbench.views import VIEW_CLASSES, view_class
 
 SCHEMA = "gearbench.snapshot/1"
@@ -547,16 +548,6 @@ def _next_stem(folder: Path, view: str) -> str:
     while (folder / f"snapshot-{n:03d}-{view}.json").exists():
         n += 1
     return f"snapshot-{n:03d}-{view}"
-
-
-def _jsonable(value: Any) -> Any:
-    if isinstance(value, dict):
-        return {str(k): _jsonable(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_jsonable(v) for v in value]
-    if isinstance(value, Path):
-        return str(value)
-    return value
 
 
 __all__ = ["SCHEMA", "SnapshotError", "build_recipe", "load_recipe", "check_recipe", "settings_from_dict",
