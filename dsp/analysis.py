@@ -40,7 +40,7 @@ class Settings:
     t_start_s: float | None = None                 # analyse only this time range
     t_end_s: float | None = None
     window: str = "hann"                           # spectrum window
-    spectrum_resolution_hz: float = 0.5            # averaged-spectrum line spacing
+    spectrum_resolution_hz: float = 0.5            # line spacing of extras["averaged_spectrum"]
     spectrum_scaling: str = "peak"                 # "peak" or "rms"
     max_order: float | None = None                 # order spectrum upper limit (None: auto)
     tsa_samples_per_rev: int | None = None         # None: automatic
@@ -707,6 +707,7 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
     del full, low_full  # everything that needs the full-length rfft has it now
     vel, velocity_rms = _velocity(fs, sensor, settings, spectrum)
     overall["velocity_rms_mm_s"] = velocity_rms
+    averaged = _averaged_spectrum(spectrum, settings)
 
     step(0.7, "order spectrum")
     ospec = _order_spectrum(lx, lfs, profile, max_order, check=step.check)
@@ -761,6 +762,7 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
         warnings=tuple(warn),
         extras={
             "zoom": zoom,
+            "averaged_spectrum": averaged,
             "quality": quality,
             "cepstrum_support": ceps_support,
             "cepstrum_prominence": ceps_prominence,
@@ -851,6 +853,22 @@ def _spectra(full, sensor, settings: Settings, table):
         zoom = zoom_spectrum(full, None, top[0], span, window=settings.window, scaling=settings.spectrum_scaling,
                              units=sensor.units)
     return spectrum, zoom
+
+
+def _averaged_spectrum(spectrum, settings: Settings):
+    """The Hz spectrum with lines ``settings.spectrum_resolution_hz`` apart (Daniell band averaging).
+
+    Grouped from the full-resolution spectrum (``dsp.spectrum.band_spectrum``), so it
+    costs one pass over the lines and no FFT.
+    """
+    from .errors import AnalysisError
+    from .spectrum import band_spectrum
+
+    res = settings.spectrum_resolution_hz
+    if isinstance(res, bool) or not isinstance(res, (int, float)) or not (math.isfinite(res) and res > 0):
+        raise AnalysisError(f"settings.spectrum_resolution_hz={res!r} must be a positive line spacing in Hz; "
+                            "give for example 0.5")
+    return band_spectrum(spectrum, float(res))
 
 
 def _velocity(fs: float, sensor, settings: Settings, spectrum):

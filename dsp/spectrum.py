@@ -41,6 +41,7 @@ __all__ = [
     "spectrum_from_rfft",
     "zoom_spectrum",
     "band_spectrum_from_rfft",
+    "band_spectrum",
     "integrate_spectrum",
     "velocity_spectrum",
     "band_rms",
@@ -810,6 +811,84 @@ def band_spectrum_from_rfft(
         enbw_hz=m * df,
         sample_rate_hz=full.fs,
         units=units,
+        detrend=False,
+        average="band",
+        line_spacing_hz=m * df,
+    )
+
+
+def band_spectrum(spectrum: Spectrum, resolution_hz: float, *, scaling: str | None = None) -> Spectrum:
+    """Coarser-resolution spectrum by grouping the lines of a one-segment spectrum.
+
+    The same band spectrum as :func:`band_spectrum_from_rfft` (line ``j`` is the
+    RMS of the full-resolution lines ``j m - m/2 .. j m + m/2``), made from a
+    spectrum already at the full record's resolution (for example the one of
+    :func:`spectrum_from_rfft`) instead of from the rfft, block by block: no
+    further FFT and no full-length temporary.
+
+    Parameters
+    ----------
+    spectrum : Spectrum
+        A single-segment spectrum (``n_averages == 1``, ``average="mean"``).
+    resolution_hz : float
+        Wanted line spacing in Hz; rounded to a whole number ``m`` of lines.
+    scaling : {"peak", "rms"}, optional
+        Scaling of the result; default that of ``spectrum``.
+
+    Returns
+    -------
+    Spectrum
+        ``average="band"``, ``enbw_hz`` equal to the line spacing (so
+        :func:`band_rms` of the result is exact), ``n_averages = m``.
+
+    References
+    ----------
+    .. [1] P. J. Daniell, discussion of "On the theoretical specification and
+       sampling properties of autocorrelated time-series", J. Royal Statistical
+       Society Suppl. 8(1):88-90, 1946.
+    .. [2] G. Heinzel, A. Ruediger, R. Schilling, "Spectrum and spectral density
+       estimation by the Discrete Fourier transform (DFT)", 2002.
+    """
+    scaling = spectrum.scaling if scaling is None else scaling
+    _check_option("scaling", scaling, _SCALINGS)
+    if spectrum.n_averages != 1 or spectrum.average != "mean":
+        raise AnalysisError("band_spectrum needs a single-segment spectrum at the record's resolution "
+                            "(spectrum_from_rfft); pass that one, not an averaged spectrum.")
+    resolution_hz = float(resolution_hz)
+    if not (np.isfinite(resolution_hz) and resolution_hz > 0):
+        raise AnalysisError(f"resolution_hz={resolution_hz} must be a positive line spacing in Hz.")
+    df = spectrum.resolution_hz
+    m = max(1, int(round(resolution_hz / df)))
+    f = np.asarray(spectrum.freq_hz)
+    amp = np.asarray(spectrum.amplitude)
+    size = amp.size
+    enbw_bins = spectrum.enbw_bins
+    first = min(m - m // 2, size)                      # line 0 holds bins 0 .. first - 1
+    bounds = np.concatenate(([0], np.arange(first, size, m), [size]))
+    n_lines = bounds.size - 1
+    line = np.empty(n_lines)
+    per_block = max(1, _BLOCK_BINS // m)               # lines per block
+    for j0 in range(0, n_lines, per_block):
+        j1 = min(j0 + per_block, n_lines)
+        a, b = int(bounds[j0]), int(bounds[j1])
+        r = _rms_block(spectrum, f[a:b], amp[a:b])
+        line[j0:j1] = np.add.reduceat(r * r, bounds[j0:j1] - a)
+    line /= enbw_bins
+    np.sqrt(line, out=line)
+    if scaling == "peak":
+        line[1:] *= np.sqrt(2.0)
+    freq = np.arange(n_lines) * (m * df)
+    return Spectrum(
+        freq_hz=_readonly(freq),
+        amplitude=_readonly(line.astype(amp.dtype if amp.dtype == np.float32 else np.float64, copy=False)),
+        window=spectrum.window,
+        nperseg=spectrum.nperseg,
+        noverlap=0,
+        n_averages=m,
+        scaling=scaling,
+        enbw_hz=m * df,
+        sample_rate_hz=spectrum.sample_rate_hz,
+        units=spectrum.units,
         detrend=False,
         average="band",
         line_spacing_hz=m * df,

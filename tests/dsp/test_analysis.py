@@ -318,3 +318,20 @@ def test_settings_are_used_and_inputs_untouched():
     assert a.recording["t_end_s"] - a.recording["t_start_s"] == pytest.approx(2.0, abs=1e-3)
     with pytest.raises(AnalysisError, match="sensor index 3"):
         analyze(rec, model, dataclasses.replace(s, sensor_index=3))
+
+
+def test_averaged_spectrum_follows_the_resolution_setting(healthy):
+    """extras["averaged_spectrum"]: the Hz spectrum with settings.spectrum_resolution_hz line spacing."""
+    b = healthy.extras["averaged_spectrum"]
+    # 6 s record: full-resolution lines 1/6 Hz apart, so 0.5 Hz is 3 lines per averaged line
+    assert b.resolution_hz == pytest.approx(0.5, rel=1e-9) and b.average == "band"
+    sim = simulate(train(), rpm=RPM, duration_s=6.0, fs=FS, seed=1)
+    x = np.asarray(sim.acceleration_g, dtype=np.float64)
+    # Parseval (numpy as the reference): the band lines hold the power of the record without its mean
+    from dsp.spectrum import band_rms
+
+    assert band_rms(b, 0.0, FS / 2) == pytest.approx(np.std(x), rel=0.02)
+    coarse = run(settings=Settings(spectrum_resolution_hz=2.0))
+    assert coarse.extras["averaged_spectrum"].resolution_hz == pytest.approx(2.0, rel=1e-9)
+    with pytest.raises(AnalysisError, match="spectrum_resolution_hz"):
+        run(duration_s=2.0, settings=Settings(spectrum_resolution_hz=0.0))

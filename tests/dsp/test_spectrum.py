@@ -11,6 +11,7 @@ from dsp.spectrum import (
     WINDOWS,
     amplitude_spectrum,
     band_rms,
+    band_spectrum,
     band_spectrum_from_rfft,
     integrate_spectrum,
     power_spectral_density,
@@ -298,3 +299,48 @@ def test_spectrum_from_rfft_any_length(n, window, seed):
     got = spectrum_from_rfft(rfft_full(x, FS), window=window)
     # numpy.fft of the windowed signal as reference, short records included (window terms alias)
     np.testing.assert_allclose(got.amplitude, direct, rtol=1e-9, atol=1e-12 * max(direct.max(), 1.0))
+
+
+def test_full_length_steps_across_blocks_match_numpy():
+    """Records longer than the block size of the full-length steps (several blocks and a partial one)."""
+    fs, n = 1000.0, 300_001                                # odd: no Nyquist line
+    rng = np.random.default_rng(23)
+    t = np.arange(n) / fs
+    x = (rng.standard_normal(n) + 2.0 * np.sin(2 * np.pi * 77.7 * t)).astype(np.float32)
+    full = rfft_full(x, fs)
+    ref = np.fft.rfft(x.astype(np.float64))
+    # numpy as the reference implementation of the rfft (float32 transform: rounding only)
+    assert np.max(np.abs(full.X - ref)) < 1e-5 * np.max(np.abs(ref))
+    rect = spectrum_from_rfft(full, window="rectangular", scaling="rms")
+    # Parseval's theorem (Heinzel et al. 2002, section 10): rectangular band RMS of every line = signal RMS
+    assert band_rms(rect, 0.0, fs / 2) == pytest.approx(np.sqrt(np.mean(x.astype(np.float64) ** 2)), rel=1e-5)
+    hann = spectrum_from_rfft(full, window="hann")
+    xw = x.astype(np.float64) * window_values("hann", n)
+    # numpy rfft of the windowed record as the reference (Harris 1978: peak scaling 2|X|/sum w)
+    np.testing.assert_allclose(hann.amplitude[1:], 2 * np.abs(np.fft.rfft(xw))[1:] / (0.5 * n), rtol=2e-3, atol=2e-6)
+    vel = velocity_spectrum(hann, units="g", cutoff_hz=2.0)
+    f = hann.freq_hz
+    keep = f >= 2.0
+    # v = a / (2 pi f), 1 g = 9.80665 m/s^2 (CGPM 1901), in mm/s
+    np.testing.assert_allclose(vel.amplitude[keep], hann.amplitude[keep] * 9.80665e3 / (2 * np.pi * f[keep]), rtol=1e-6)
+    assert np.all(vel.amplitude[~keep] == 0)
+
+
+def test_band_spectrum_of_a_spectrum_equals_the_one_from_the_rfft():
+    fs, n = 1000.0, 300_000                                # 150 001 lines: several blocks
+    rng = np.random.default_rng(29)
+    t = np.arange(n) / fs
+    x = rng.standard_normal(n) + 3.0 * np.sin(2 * np.pi * 123.4567 * t)
+    full = rfft_full(x, fs)
+    for res, scaling in ((0.5, "peak"), (0.1, "rms"), (7.0, "peak")):
+        b = band_spectrum(spectrum_from_rfft(full, scaling=scaling), res)
+        ref = band_spectrum_from_rfft(full, res, scaling=scaling)
+        np.testing.assert_allclose(b.freq_hz, ref.freq_hz, rtol=1e-12)
+        np.testing.assert_allclose(b.amplitude, ref.amplitude, rtol=1e-9, atol=1e-12)   # common practice, no source
+        # Parseval with the window's ENBW (Heinzel et al. 2002): all lines hold the record's power
+        assert band_rms(b, 0, fs / 2) == pytest.approx(np.std(x), rel=0.02)
+    k = int(np.argmin(np.abs(b.freq_hz - 126.0)))          # 7 Hz lines: the tone lies inside line 18
+    # Daniell averaging: a tone inside one band reads its amplitude (Parseval within the band)
+    assert b.amplitude[k] == pytest.approx(3.0, rel=0.01)
+    with pytest.raises(AnalysisError, match="single-segment"):
+        band_spectrum(band_spectrum_from_rfft(full, 0.5), 1.0)
