@@ -4,7 +4,10 @@ It holds no signal processing: the document (:class:`workbench.session.Session`)
 holds the choices, :class:`workbench.jobs.AnalysisRunner` computes off the GUI
 thread, and the views draw what comes back.  Edits to the model or the settings
 re-run the analysis after a short pause; the last good result stays on screen while
-a new one is computed or when the new input is wrong.
+a new one is computed or when the new input is wrong.  The File menu, recent files and
+drag and drop are in :mod:`workbench.file_menu`, the message banner in
+:mod:`workbench.banner`, sessions and the analyst's work in
+:mod:`workbench.document_actions`.
 """
 
 from __future__ import annotations
@@ -16,10 +19,12 @@ from typing import Any
 
 from PySide6.QtCore import QSettings, Qt, QTimer, Signal
 from PySide6.QtGui import QAction, QKeySequence
-from PySide6.QtWidgets import (QComboBox, QDockWidget, QFileDialog, QHBoxLayout, QLabel, QMainWindow,
+from PySide6.QtWidgets import (QComboBox, QDockWidget, QHBoxLayout, QLabel, QMainWindow,
                                QProgressBar, QPushButton, QSizePolicy, QSplitter, QTabWidget, QVBoxLayout, QWidget)
 
 from workbench import theme
+from workbench.banner import Banner
+from workbench.file_menu import MODEL_SUFFIXES, N_RECENT, RECORDING_SUFFIXES, FileMenu  # noqa: F401 - importable here
 from workbench.jobs import AnalysisRunner
 from workbench.results_panel import ResultsPanel
 from workbench.session import VIEW_NAMES, Session
@@ -27,42 +32,9 @@ from workbench.views import VIEW_CLASSES, view_class
 
 log = logging.getLogger(__name__)
 
-RECORDING_SUFFIXES = (".flac", ".wav", ".ogg", ".aiff", ".aif", ".w64", ".rf64", ".caf")
-MODEL_SUFFIXES = (".toml",)
-N_RECENT = 8
 RERUN_DELAY_MS = 250
 FIRST_STEPS = ("No model file beside this recording. Enter in the form, in this order: the sensor channel "
                "(and its scale), the tach channel or a nominal speed, then the shafts and the gears between them.")
-
-
-class Banner(QLabel):
-    """One line (or a few) of messages above the views, coloured by how serious they are."""
-
-    COLOURS = {"info": theme.BANNER_INFO, "warning": theme.BANNER_WARNING, "error": theme.BANNER_ERROR}
-
-    def __init__(self, parent=None):
-        super().__init__(parent)
-        self.setWordWrap(True)
-        self.setTextFormat(Qt.TextFormat.RichText)
-        self.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
-        self.parts: dict[str, tuple[str, str]] = {}
-        self.setVisible(False)
-
-    def set_part(self, key: str, level: str, text: str | None) -> None:
-        if text:
-            self.parts[key] = (level, text)
-        else:
-            self.parts.pop(key, None)
-        order = {"error": 0, "warning": 1, "info": 2}
-        shown = sorted(self.parts.values(), key=lambda part: order[part[0]])
-        self.setVisible(bool(shown))
-        if shown:
-            self.setStyleSheet(f"background: {self.COLOURS[shown[0][0]]}; color: {theme.FOREGROUND};"
-                               " padding: 6px; border-radius: 3px;")
-            self.setText("<br>".join(html.escape(text) for _, text in shown))
-
-    def plain_text(self) -> str:
-        return "\n".join(text for _, text in self.parts.values())
 
 
 def _model_form_widget():
@@ -75,7 +47,7 @@ def _model_form_widget():
     return ModelForm()
 
 
-class MainWindow(QMainWindow):
+class MainWindow(FileMenu, QMainWindow):
     """The workbench window.
 
     Parameters
@@ -219,25 +191,7 @@ class MainWindow(QMainWindow):
         bar.addPermanentWidget(self.cancel_button)
 
     def _build_menus(self) -> None:
-        menu = self.menuBar().addMenu("&File")
-        for text, key, slot in (
-            ("&Open recording...", QKeySequence.StandardKey.Open, self._ask_recording),
-            ("Open &model...", None, self._ask_model),
-            ("&Save model", QKeySequence.StandardKey.Save, self._save_model),
-            ("Save model &as...", QKeySequence.StandardKey.SaveAs, lambda: self._save_model(ask=True)),
-        ):
-            action = QAction(text, self)
-            if key is not None:
-                action.setShortcut(key)
-            action.triggered.connect(slot)
-            menu.addAction(action)
-        self.recent_menu = menu.addMenu("Open &recent")
-        self._fill_recent()
-        menu.addSeparator()
-        quit_action = QAction("&Quit", self)
-        quit_action.setShortcut(QKeySequence.StandardKey.Quit)
-        quit_action.triggered.connect(self.close)
-        menu.addAction(quit_action)
+        self._build_file_menu()
         view_menu = self.menuBar().addMenu("&View")
         for index, name in enumerate(VIEW_NAMES):
             action = QAction(self.views[name].title, self)
@@ -341,62 +295,6 @@ class MainWindow(QMainWindow):
     def _on_form_file_loaded(self, path: str) -> None:
         self.session.model_path = Path(path)
         self._remember(Path(path))
-
-    def _ask_recording(self) -> None:
-        path, _ = QFileDialog.getOpenFileName(self, "Open recording", str(self._start_dir()),
-                                              "Recordings (" + " ".join(f"*{s}" for s in RECORDING_SUFFIXES) + ")")
-        if path:
-            self.open_recording(path)
-
-    def _ask_model(self) -> None:
-        path, _ = QFileDialog.getOpenFileName(self, "Open model", str(self._start_dir()), "Models (*.toml)")
-        if path:
-            self.open_model(path)
-
-    def _save_model(self, ask: bool = False) -> None:
-        if self.form is None:
-            return
-        path = None if ask else (self.form.path or self.session.model_path)
-        if path is None:
-            path, _ = QFileDialog.getSaveFileName(self, "Save model", str(self._start_dir()), "Models (*.toml)")
-        if path and self.form.save_file(path):
-            self.session.model_path = Path(path)
-            self.status_label.setText(f"Model saved to {path}")
-
-    def _start_dir(self) -> Path:
-        return self.session.recording_path.parent if self.session.recording_path else Path.cwd()
-
-    def _remember(self, path: Path) -> None:
-        recent = [str(path.resolve())] + [p for p in self._recent() if p != str(path.resolve())]
-        self.store.setValue("recent_files", recent[:N_RECENT])
-        self._fill_recent()
-
-    def _recent(self) -> list[str]:
-        value = self.store.value("recent_files", [])
-        return [value] if isinstance(value, str) else list(value or [])
-
-    def _fill_recent(self) -> None:
-        self.recent_menu.clear()
-        for path in self._recent():
-            action = self.recent_menu.addAction(path)
-            action.triggered.connect(lambda _=False, p=path: self._open_any(Path(p)))
-        self.recent_menu.setEnabled(bool(self._recent()))
-
-    def _open_any(self, path: Path) -> None:
-        if path.suffix.lower() in MODEL_SUFFIXES:
-            self.open_model(path)
-        else:
-            self.open_recording(path)
-
-    def dragEnterEvent(self, event):  # noqa: N802 - Qt override
-        urls = event.mimeData().urls() if event.mimeData().hasUrls() else []
-        if urls and Path(urls[0].toLocalFile()).suffix.lower() in RECORDING_SUFFIXES + MODEL_SUFFIXES:
-            event.acceptProposedAction()
-
-    def dropEvent(self, event):  # noqa: N802 - Qt override
-        for url in event.mimeData().urls():
-            self._open_any(Path(url.toLocalFile()))
-        event.acceptProposedAction()
 
     # ------------------------------------------------------------------ analysis
     def run_analysis(self) -> None:

@@ -1,0 +1,40 @@
+"""The banner above the views: messages of the window, coloured by how serious the worst is."""
+
+from __future__ import annotations
+
+import html
+
+from PySide6.QtCore import Qt
+from PySide6.QtWidgets import QLabel
+
+from workbench import theme
+
+
+class Banner(QLabel):
+    """One line (or a few) of messages above the views, coloured by how serious they are."""
+
+    COLOURS = {"info": theme.BANNER_INFO, "warning": theme.BANNER_WARNING, "error": theme.BANNER_ERROR}
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self.setWordWrap(True)
+        self.setTextFormat(Qt.TextFormat.RichText)
+        self.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        self.parts: dict[str, tuple[str, str]] = {}
+        self.setVisible(False)
+
+    def set_part(self, key: str, level: str, text: str | None) -> None:
+        if text:
+            self.parts[key] = (level, text)
+        else:
+            self.parts.pop(key, None)
+        order = {"error": 0, "warning": 1, "info": 2}
+        shown = sorted(self.parts.values(), key=lambda part: order[part[0]])
+        self.setVisible(bool(shown))
+        if shown:
+            self.setStyleSheet(f"background: {self.COLOURS[shown[0][0]]}; color: {theme.FOREGROUND};"
+                               " padding: 6px; border-radius: 3px;")
+            self.setText("<br>".join(html.escape(text) for _, text in shown))
+
+    def plain_text(self) -> str:
+        return "\n".join(text for _, text in self.parts.values())
