@@ -251,28 +251,41 @@ _BLOCK = 1 << 16
 
 
 def _overall(x: np.ndarray, velocity_rms: float, quality) -> dict[str, Any]:
-    """RMS, peak, crest factor and Pearson kurtosis of the whole record, block by block.
+    """RMS, peak, crest factor and Pearson kurtosis of the whole record, in one pass of blocks.
 
     The same formulas as :mod:`dsp.indicators` (``rms`` keeps the mean,
-    kurtosis ``N sum d^4 / (sum d^2)^2`` with ``d = x - mean``), accumulated in
-    float64 over blocks so that no full-length float64 copy is made.
+    kurtosis ``N sum d^4 / (sum d^2)^2`` with ``d = x - mean``).  Each block's
+    central moments (float64) are merged into the running ones with the pairwise
+    update formulas, so the record is read once (a long record does not fit in the
+    cache) and no full-length float64 copy is made.
+
+    References
+    ----------
+    .. [1] P. Pebay, "Formulas for robust, one-pass parallel computation of
+       covariances and arbitrary-order statistical moments", Sandia report
+       SAND2008-6212, 2008 (eqs. 1.1-1.4: merging the central moments of two sets).
     """
     n = x.size
-    s1 = 0.0
-    peak = 0.0
+    s2 = peak = 0.0
+    na = 0
+    mean = m2 = m3 = m4 = 0.0
     for i in range(0, n, _BLOCK):
         b = x[i:i + _BLOCK].astype(np.float64)
-        s1 += float(b.sum())
+        nb = b.size
         peak = max(peak, float(np.max(np.abs(b))))
-    mean = s1 / n
-    s2 = m2 = m4 = 0.0
-    for i in range(0, n, _BLOCK):
-        b = x[i:i + _BLOCK].astype(np.float64)
         s2 += float(np.dot(b, b))
-        b -= mean
-        b *= b
-        m2 += float(b.sum())
-        m4 += float(np.dot(b, b))
+        mb = float(b.sum()) / nb
+        b -= mb
+        d2 = b * b
+        m2b, m3b, m4b = float(d2.sum()), float(np.dot(d2, b)), float(np.dot(d2, d2))
+        nn = na + nb
+        delta = mb - mean
+        m4 += (m4b + delta**4 * na * nb * (na * na - na * nb + nb * nb) / nn**3
+               + 6.0 * delta**2 * (na * na * m2b + nb * nb * m2) / nn**2 + 4.0 * delta * (na * m3b - nb * m3) / nn)
+        m3 += m3b + delta**3 * na * nb * (na - nb) / nn**2 + 3.0 * delta * (na * m2b - nb * m2) / nn
+        m2 += m2b + delta**2 * na * nb / nn
+        mean += delta * nb / nn
+        na = nn
     rms = math.sqrt(s2 / n)
     return {
         "rms": rms,

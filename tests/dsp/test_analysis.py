@@ -335,3 +335,20 @@ def test_averaged_spectrum_follows_the_resolution_setting(healthy):
     assert coarse.extras["averaged_spectrum"].resolution_hz == pytest.approx(2.0, rel=1e-9)
     with pytest.raises(AnalysisError, match="spectrum_resolution_hz"):
         run(duration_s=2.0, settings=Settings(spectrum_resolution_hz=0.0))
+
+
+def test_overall_moments_in_one_pass_match_scipy():
+    """The one-pass block merge of the overall levels (several blocks, a large mean) against scipy/numpy."""
+    import scipy.stats
+
+    from dsp.analysis import _overall
+
+    rng = np.random.default_rng(41)
+    x = (5.0 + rng.standard_t(5, 300_001)).astype(np.float32)     # heavy tails, offset: kurtosis well above 3
+    q = type("Q", (), {"clipped": False, "clipped_fraction": 0.0})()
+    o = _overall(x, 1.0, q)
+    xd = x.astype(np.float64)
+    # scipy.stats.kurtosis (Pearson, fisher=False) and numpy as reference implementations
+    assert o["kurtosis"] == pytest.approx(scipy.stats.kurtosis(xd, fisher=False), rel=1e-9)
+    assert o["rms"] == pytest.approx(np.sqrt(np.mean(xd**2)), rel=1e-12)
+    assert o["peak"] == pytest.approx(np.max(np.abs(xd)), rel=1e-12)
