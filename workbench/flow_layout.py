@@ -111,7 +111,10 @@ class FlowLayout(QLayout):
     def _hint(item: QLayoutItem, stretch: int) -> QSize:
         hint = item.sizeHint()
         if stretch > 0:
-            hint.setWidth(max(hint.width(), STRETCH_MIN_PX, item.minimumSize().width()))
+            # the text's own width: a caption with an Ignored width policy reports 0 through its layout item
+            widget = item.widget()
+            wanted = widget.sizeHint().width() if widget is not None else hint.width()
+            hint.setWidth(max(wanted, STRETCH_MIN_PX, item.minimumSize().width()))
         return hint
 
     def _arrange(self, rect: QRect, *, apply: bool) -> int:

@@ -109,6 +109,8 @@ class ModelOverlay(QObject):
         for name in self.labelled:
             self._check_family(name)
         self.labels: list[pg.TextItem] = []     # reused label items (see _place_labels)
+        self.label_shaft: str | None = None      # label only this shaft's lines (and lines of no shaft)
+        self.label_max_harmonic: int | None = None
         self.plot_item = plot_item
         self.n_harmonics = int(n_harmonics)
         self.n_sidebands = int(n_sidebands)
@@ -288,6 +290,12 @@ class ModelOverlay(QObject):
             items.spread.setVisible(self._visible[family] and m > 0)
         self._place_labels()
 
+    def set_label_filter(self, *, shaft: str | None = None, max_harmonic: int | None = None) -> None:
+        """Label only the lines of ``shaft`` (and those of no shaft) up to ``max_harmonic`` (None: all)."""
+        if (shaft, max_harmonic) != (self.label_shaft, self.label_max_harmonic):
+            self.label_shaft, self.label_max_harmonic = shaft, max_harmonic
+            self._place_labels()
+
     def label_texts(self) -> list[tuple[float, str]]:
         """``(x, text)`` of the labels shown, left to right (display units)."""
         return sorted((float(t.pos().x()), t.textItem.toPlainText()) for t in self.labels if t.isVisible())
@@ -295,7 +303,9 @@ class ModelOverlay(QObject):
     def _place_labels(self, *_args) -> None:
         """Name the lines of the labelled families that are in view, in staggered rows, without overlaps."""
         wanted = [line for line in self._lines if line.group in self.labelled and self._visible[line.group]
-                  and not line.family.endswith((" hunting tooth", " assembly phase"))]
+                  and not line.family.endswith((" hunting tooth", " assembly phase"))
+                  and (self.label_shaft is None or line.shaft in (None, self.label_shaft))
+                  and (self.label_max_harmonic is None or line.harmonic <= self.label_max_harmonic)]
         shown: list[tuple[float, int, str, str]] = []
         if wanted and self.table is not None:
             vb = self.plot_item.getViewBox()

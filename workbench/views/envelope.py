@@ -69,12 +69,13 @@ class EnvelopeView(AnalysisView):
         squared = getattr(env, "squared", False)
         self.plot.setLabel("left", f"{'squared envelope' if squared else 'envelope'} ({units}{'²' if squared else ''})")
         shaft = self.session.selected_shaft
+        self.overlay.set_label_filter(shaft=shaft, max_harmonic=3)   # names for the selected shaft's lines
         self._show_model_lines(freq, amp, units + ("²" if squared else ""))
         top = self._top_frequency(shaft)
         self.plot.setXRange(0, top if top else float(freq[-1]), padding=0)
         visible = amp[freq <= (top or freq[-1])][1:]
         if visible.size:
-            self.plot.setYRange(0, float(visible.max()) * 1.1, padding=0)
+            self.plot.setYRange(0, float(visible.max()) * 1.3, padding=0)   # room for the line labels on top
         lo, hi = env.band_hz
         self.caption.setText(f"band {lo:.0f} to {hi:.0f} Hz, "
                              + ("chosen by the kurtogram" if env.band_source == "kurtogram" else "chosen by you"))
