@@ -193,3 +193,17 @@ def test_labels_never_share_a_row_where_they_would_overlap(plot, train):
         row.sort()
         for (x0, text0), (x1, _) in zip(row, row[1:]):
             assert x1 - x0 >= LABEL_CHAR_PX * len(text0)  # common practice, no source: labels must not overlap
+
+
+def test_label_filter_names_only_one_shafts_lines(plot, train):
+    # input at 50 Hz drives 40/15: output at 50 x 40/15 = 133.3 Hz (domain reference 1.1)
+    overlay = ModelOverlay(plot, n_harmonics=5, n_sidebands=0, visible=("shaft harmonics",),
+                           labelled=("shaft harmonics",))
+    plot.setXRange(0, 1000, padding=0)
+    overlay.set_table(frequency_table(train, 50.0))
+    overlay.set_label_filter(shaft="output", max_harmonic=2)
+    shown = overlay.label_texts()
+    assert [x for x, _ in shown] == pytest.approx([50 * 40 / 15, 2 * 50 * 40 / 15])  # domain reference 1.1
+    assert all("output" in text for _, text in shown)
+    overlay.set_label_filter()
+    assert len(overlay.label_texts()) > 2   # without the filter every shaft's harmonics in view are named
