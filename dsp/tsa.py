@@ -270,34 +270,34 @@ class _Angles:
         self._h32 = tuple(h.astype(np.float32) for h in self._h)
         self._om32 = self._om.astype(np.float32)
         self._s32 = s.astype(np.float32)
+        # the per-sample polynomials as matrices, so that one small matrix product per chunk
+        # evaluates them: angle from the block start (h00 + h01 = 1) = [step, om0, om1] @ H,
+        # plus a constant row for a shaft's start-cell fraction; speed = [om0, om1] @ D
+        _, h10, h01, h11 = self._h
+        self._H4 = np.stack([h01, h10, h11, np.ones(_BLOCK)]).astype(np.float32)
+        self._D = (np.stack([1.0 - s, s]) / _BLOCK).astype(np.float32)
 
-    def chunk(self, j0: int, j1: int, delta: np.ndarray, dtheta: np.ndarray):
-        """Angles of the samples of blocks j0..j1-1 relative to each block's start.
+    def chunk(self, j0: int, j1: int, coef: np.ndarray, dtheta: np.ndarray):
+        """Block coefficients of the angle and the angle each sample spans, blocks j0..j1-1.
 
-        Returns ``delta`` (rev since the block's first sample) and ``dtheta`` (rev
-        spanned by each sample), float32 arrays of shape (j1 - j0, _BLOCK) written into
-        the buffers.  The block's own angle ``block_theta[j]`` stays float64, so the
-        absolute angle keeps full precision while the per-sample work is float32.
+        Returns ``coef`` (shape (j1 - j0, 4), float32: the block's angle step, its speed
+        at both ends in rev per block, and a free last column), so that the angle of each
+        sample since its block's first sample is ``coef[:, :3] @ H[:3]`` (cubic Hermite),
+        and ``dtheta`` (rev spanned by each sample), float32 of shape (j1 - j0, _BLOCK),
+        both written into the buffers.  The block's own angle ``block_theta[j]`` stays
+        float64, so the absolute angle keeps full precision while the per-sample work is
+        float32.
         """
         m = j1 - j0
-        step = (self.block_theta[j0 + 1:j1 + 1] - self.block_theta[j0:j1]).astype(np.float32)[:, None]
-        om0 = self._om32[j0:j1, None]
-        om1 = self._om32[j0 + 1:j1 + 1, None]
-        _, h10, h01, h11 = self._h32                       # h00 + h01 = 1: angle from the block start
-        de = delta[: m * _BLOCK].reshape(m, _BLOCK)
-        tmp = dtheta[: m * _BLOCK].reshape(m, _BLOCK)
-        np.multiply(step, h01, out=de)
-        np.multiply(om0, h10, out=tmp)
-        de += tmp
-        np.multiply(om1, h11, out=tmp)
-        de += tmp
+        a = coef[: 4 * m].reshape(m, 4)
+        a[:, 0] = self.block_theta[j0 + 1:j1 + 1] - self.block_theta[j0:j1]
+        a[:, 1] = self._om32[j0:j1]
+        a[:, 2] = self._om32[j0 + 1:j1 + 1]
         # angle spanned by each sample = speed x 1/fs, the speed taken linear within the
         # block (differs from the cubic's derivative by ~h^2 (3rd derivative) / speed, ~1e-6)
-        dth = tmp
-        np.multiply(om1 - om0, self._s32, out=dth)
-        dth += om0
-        dth *= np.float32(1.0 / _BLOCK)
-        return de, dth
+        dth = dtheta[: m * _BLOCK].reshape(m, _BLOCK)
+        np.matmul(a[:, 1:3], self._D, out=dth)
+        return a, dth
 
     def speed_range(self, lo_rev: float, hi_rev: float) -> tuple[float, float]:
         """Min and max speed (tach-shaft Hz) between two tach angles."""
@@ -361,21 +361,23 @@ class _Shaft:
         # S_p = sum y mu^p
         self.grid = np.zeros(G + self.tail, dtype=np.complex64)
 
-    def spread_blocks(self, block_theta, delta, y, v, buf_g, buf_fl, buf_n, write_real: bool):
-        """Spread samples given as block angle (float64) + offsets (float32) with weights y.
+    def spread_blocks(self, block_theta, coef, H4, y, v, buf_a, buf_g, buf_fl, buf_n, write_real: bool):
+        """Spread samples given as block angle (float64) + per-block coefficients with weights y.
 
-        ``block_theta`` has shape (m,), ``delta``, ``y`` and the complex buffer ``v``
-        shape (m, _BLOCK); ``v.real`` already holds ``y`` unless ``write_real``.
+        ``block_theta`` has shape (m,), ``coef`` (m, 4) (see :meth:`_Angles.chunk`), ``y``
+        and the complex buffer ``v`` shape (m, _BLOCK); ``v.real`` already holds ``y``
+        unless ``write_real``.
         """
-        m = delta.shape[0]
+        m = coef.shape[0]
         scale = self.r * self.G
         base = block_theta * scale                       # grid position of each block start
         base_int = np.floor(base)
-        base_frac = (base - base_int).astype(np.float32)[:, None]
         base_cell = np.mod(base_int, self.G)[:, None]
+        a = buf_a[: 4 * m].reshape(m, 4)
+        np.multiply(coef[:, :3], np.float32(scale), out=a[:, :3])
+        a[:, 3] = base - base_int                        # start-cell fraction
         g = buf_g[: m * _BLOCK].reshape(m, _BLOCK)
-        np.multiply(delta, np.float32(scale), out=g)
-        g += base_frac
+        np.matmul(a, H4, out=g)                          # grid position from the block's start cell
         fl = buf_fl[: m * _BLOCK].reshape(m, _BLOCK)
         np.floor(g, out=fl)                              # whole cells (g >= 0)
         g -= fl                                          # fractional part mu
@@ -443,14 +445,15 @@ def _average_shafts(xs: np.ndarray, ang: _Angles, shafts: list[_Shaft]) -> None:
     hi = max(s.k1 for s in shafts)
     j_lo, j_hi = lo // _BLOCK, -(-hi // _BLOCK)
     C = _CHUNK_BLOCKS * _BLOCK
-    delta, dtheta = np.empty(C, np.float32), np.empty(C, np.float32)
+    coef, buf_a, dtheta = np.empty(4 * _CHUNK_BLOCKS, np.float32), np.empty(4 * _CHUNK_BLOCKS, np.float32), \
+        np.empty(C, np.float32)
     buf_g, buf_fl, buf_y = np.empty(C, np.float32), np.empty(C, np.float32), np.empty(C, np.float32)
     buf_v = np.empty(C, np.complex64)
     buf_n = np.empty(C, dtype=np.int32)
     for j0 in range(j_lo, j_hi, _CHUNK_BLOCKS):
         j1 = min(j0 + _CHUNK_BLOCKS, j_hi)
         m = j1 - j0
-        de, y = ang.chunk(j0, j1, delta, dtheta)
+        de, y = ang.chunk(j0, j1, coef, dtheta)
         c0, c1 = j0 * _BLOCK, j1 * _BLOCK
         np.multiply(y, xs[c0:c1].reshape(m, _BLOCK), out=y)
         th0 = ang.block_theta[j0:j1]
@@ -465,10 +468,10 @@ def _average_shafts(xs: np.ndarray, ang: _Angles, shafts: list[_Shaft]) -> None:
                 flat = ys.reshape(-1)
                 flat[: max(s.k0 - c0, 0)] = 0.0
                 flat[max(s.k1 - c0, 0):] = 0.0
-                s.spread_blocks(th0, de, ys, v, buf_g, buf_fl, buf_n, True)
+                s.spread_blocks(th0, de, ang._H4, ys, v, buf_a, buf_g, buf_fl, buf_n, True)
                 real_holds_y = False
             else:
-                s.spread_blocks(th0, de, y, v, buf_g, buf_fl, buf_n, not real_holds_y)
+                s.spread_blocks(th0, de, ang._H4, y, v, buf_a, buf_g, buf_fl, buf_n, not real_holds_y)
                 real_holds_y = True
     for s in shafts:
         s.add_edges(xs, ang)
