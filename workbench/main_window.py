@@ -33,8 +33,20 @@ from workbench.views import VIEW_CLASSES, view_class
 log = logging.getLogger(__name__)
 
 RERUN_DELAY_MS = 250
+DEFAULT_SIZE = (1600, 1000)      # px, when the screen allows
 FIRST_STEPS = ("No model file beside this recording. Enter in the form, in this order: the sensor channel "
                "(and its scale), the tach channel or a nominal speed, then the shafts and the gears between them.")
+
+
+def default_size(preferred: tuple[int, int] = DEFAULT_SIZE) -> tuple[int, int]:
+    """``preferred`` (width, height in px), or the primary screen's free area when it is smaller."""
+    from PySide6.QtGui import QGuiApplication
+
+    screen = QGuiApplication.primaryScreen()
+    if screen is None or QGuiApplication.platformName() == "offscreen":
+        return preferred            # no real screen: the size asked for (screenshots, tests)
+    free = screen.availableGeometry()
+    return min(preferred[0], free.width()), min(preferred[1], free.height())
 
 
 def _model_form_widget():
@@ -94,7 +106,7 @@ class MainWindow(FileMenu, QMainWindow):
 
         self.baseline = BaselineController(self)   # baseline comparison and severity dock, File menu entries
         self._painted = False
-        self.resize(1600, 1000)
+        self.resize(*default_size())
         from workbench.document_actions import DocumentActions
 
         # sessions, autosave, undo/redo, notes, snapshots, findings and the report

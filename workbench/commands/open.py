@@ -16,8 +16,11 @@ import sys
 import time
 from pathlib import Path
 
+from workbench.views import VIEW_CLASSES
+
 HELP = "open a recording in the workbench window"
-VIEWS = ("waveform", "speed", "spectrum", "tsa", "envelope", "cepstrum")
+VIEWS = tuple(VIEW_CLASSES)      # workbench.views: the one registry of views (no Qt)
+SCREENSHOT_SIZE = "1600x1000"
 DEMO_NAME = "03_broken_tooth.flac"
 SCREENSHOT_TIMEOUT_S = 120.0
 
@@ -36,7 +39,8 @@ def add_arguments(parser) -> None:
     parser.add_argument("--screenshot", metavar="PATH", help="save the window as PNG when every view is drawn, then exit")
     parser.add_argument("--view", choices=VIEWS, help="view to show first")
     parser.add_argument("--shaft", metavar="NAME", help="shaft to select first (default: the shaft the tach watches)")
-    parser.add_argument("--size", metavar="WxH", default="1600x1000", help="window size in pixels (default 1600x1000)")
+    parser.add_argument("--size", metavar="WxH", help="window size in pixels (default 1600x1000, or the screen's "
+                        "free area when smaller; a --screenshot is always 1600x1000 unless --size is given)")
     parser.add_argument("--timing", action="store_true", help=argparse.SUPPRESS)
 
 
@@ -106,7 +110,7 @@ def run(args) -> int:
     model = Path(args.model) if args.model else None
     if model is not None and not model.is_file():
         raise GearbenchError(f"model file not found: {model}; check the path")
-    width, height = _parse_size(args.size)
+    width, height = _parse_size(args.size or SCREENSHOT_SIZE)
     screenshot = Path(args.screenshot) if args.screenshot else None
     if screenshot is not None:
         if screenshot.suffix.lower() != ".png":
@@ -127,8 +131,9 @@ def run(args) -> int:
     theme.configure_pyqtgraph()
     from workbench.main_window import MainWindow
 
-    window = MainWindow()
-    window.resize(width, height)
+    window = MainWindow()   # 1600x1000, or the screen's free area when it is smaller
+    if args.size or screenshot is not None:
+        window.resize(width, height)
     if args.view:
         window.session.set_current_view(args.view)
     outcome: dict[str, object] = {"code": 0, "message": None}
