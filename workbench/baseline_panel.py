@@ -90,6 +90,8 @@ class BaselinePanel(QWidget):
         sbox = QGroupBox("Severity guidance (ISO 20816-3)")
         form = QFormLayout(sbox)
         form.setContentsMargins(4, 4, 4, 4)
+        # a narrow dock puts a field under its label instead of cutting the caution text at the right
+        form.setRowWrapPolicy(QFormLayout.RowWrapPolicy.WrapLongRows)
         self.band_lo = QDoubleSpinBox()
         self.band_hi = QDoubleSpinBox()
         for spin, value in ((self.band_lo, 10.0), (self.band_hi, 1000.0)):
@@ -118,6 +120,7 @@ class BaselinePanel(QWidget):
         self.group.currentIndexChanged.connect(self._options_changed)
         self.foundation.currentIndexChanged.connect(self._options_changed)
         self.velocity_label = QLabel("-")
+        self.velocity_label.setWordWrap(True)
         self.zone_label = QLabel("no recording analysed")
         self.zone_label.setWordWrap(True)
         font = QFont(self.zone_label.font())
@@ -378,6 +381,7 @@ class BaselineController(QObject):
 
         scroll = QScrollArea()        # the dock never forces the window wider than the results dock
         scroll.setWidgetResizable(True)
+        scroll.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAsNeeded)
         scroll.setWidget(self.panel)
         self.dock.setWidget(scroll)
         self.dock.setFeatures(QDockWidget.DockWidgetFeature.DockWidgetMovable

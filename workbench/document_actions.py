@@ -449,6 +449,8 @@ class DocumentActions(QObject):
             return None
 
     def _ask_open_session(self) -> None:
+        if not self._save_unsaved("Open session", "open another session", unattended="Keep"):
+            return
         path, _ = QFileDialog.getOpenFileName(self.window, "Open session", self._start_dir(), SESSION_FILTER)
         if not path:
             return

@@ -40,7 +40,7 @@ from dataclasses import dataclass
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import QObject, Qt, Signal
-from PySide6.QtGui import QAction
+from PySide6.QtGui import QAction, QFontMetricsF, QGuiApplication
 from PySide6.QtWidgets import QLabel, QMenu, QSizePolicy, QToolButton, QWidget
 
 from dsp.explain import ModelLine, axis_scale, model_lines
@@ -67,8 +67,8 @@ DEFAULT_LABELLED = ("mesh harmonics",)
 #: Most labels drawn at once, and the rows they are staggered in.
 N_LABELS = 16
 N_LABEL_ROWS = 3
-#: Approximate width of one label character, screen px (overlap test only).
-LABEL_CHAR_PX = 6.5
+#: Room kept around a label's text (the text item's margin and a gap), screen px.
+LABEL_PAD_PX = 10.0
 
 
 @dataclass
@@ -312,16 +312,17 @@ class ModelOverlay(QObject):
             (x0, x1), (y0, y1) = vb.viewRange()
             px = abs(vb.viewPixelSize()[0]) or 1.0
             free = [-np.inf] * N_LABEL_ROWS      # right end of the last label in each row, px
+            metrics = QFontMetricsF(QGuiApplication.font())
             for line in sorted(wanted, key=lambda ln: (ln.harmonic, ln.hz)):
                 x = line.hz * self.scale
                 if not x0 <= x <= x1 or len(shown) >= N_LABELS:
                     continue
                 left = (x - x0) / px
-                row = next((r for r in range(N_LABEL_ROWS) if free[r] < left - 4), None)
+                row = next((r for r in range(N_LABEL_ROWS) if free[r] <= left), None)
                 if row is None:
                     continue
                 text = _short(line.text)
-                free[row] = left + LABEL_CHAR_PX * len(text)
+                free[row] = left + metrics.horizontalAdvance(text) + LABEL_PAD_PX
                 colour = self._colours.get(line.shaft or "", theme.FOREGROUND)
                 shown.append((x, row, text, colour))
             step = (y1 - y0) * 0.055
