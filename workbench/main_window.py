@@ -102,7 +102,7 @@ class MainWindow(FileMenu, QMainWindow):
         self.runner.cancelled.connect(self._on_cancelled)
         self.runner.crashed.connect(lambda _g, msg, trace: self.report_unexpected(msg, trace))
         self.session.subscribe(self._on_session_event)
-        from workbench.baseline_panel import BaselineController
+        from workbench.baseline_controller import BaselineController
 
         self.baseline = BaselineController(self)   # baseline comparison and severity dock, File menu entries
         self._painted = False
