@@ -317,6 +317,18 @@ class DocumentActions(QObject):
         s = self.session
         return bool(s.cursors or s.annotations or s.snapshots or (s.findings or "").strip())
 
+    def model_edited(self) -> bool:
+        """True when the session's model differs from its model file (or has none): edits not saved anywhere."""
+        from dsp.model import load_model
+
+        model, path = self.session.model, self.session.model_path
+        if model is None:
+            return False
+        try:
+            return path is None or load_model(path) != model
+        except (GearbenchError, OSError):
+            return True
+
     def unsaved(self) -> bool:
         """True while changes are not in the session file (in memory, or only in the autosave)."""
         return bool(self.autosaver.dirty or self.autosaver.last_path is not None)
@@ -327,7 +339,7 @@ class DocumentActions(QObject):
 
     def _save_unsaved(self, title: str, doing: str, *, unattended: str) -> bool:
         self.findings.commit_now()
-        if not (self.unsaved() and (self.has_work() or self.session_path is not None)):
+        if not (self.unsaved() and (self.has_work() or self.session_path is not None or self.model_edited())):
             return True
         where = self.session_path.name if self.session_path is not None else "this session (never saved)"
         choice = self.ask(title, f"There are unsaved changes in {where}. Save them before you {doing}?",

@@ -142,3 +142,17 @@ def test_severity_choices_are_saved_and_restored(qtbot, window, recordings, tmp_
     panel.band_lo.setValue(10.0)
     window.document.apply(loaded.session)
     assert panel.options() == (group, foundation, (2.0, band[1]))
+
+
+def test_close_after_a_model_edit_asks(qtbot, window, recordings):
+    # a model edit not saved in its file is unsaved work even without notes
+    import dataclasses
+
+    _open(qtbot, window, recordings[0])
+    model = window.session.model
+    mesh = dataclasses.replace(model.meshes[0], driven_teeth=70)
+    window.session.set_model(dataclasses.replace(model, meshes=(mesh,)))
+    asked = []
+    window.document.answer = lambda title, text, choices: asked.append(text) or "Cancel"
+    assert window.close() is False
+    assert asked and "unsaved changes" in asked[0]
