@@ -175,9 +175,12 @@ def cepstrum_from_rfft(full: FullSpectrum, *, eps: float | None = None, max_freq
             X = X[: k + 1]
             n = 2 * k
             fs_q = n * full.resolution_hz
+    import scipy.fft  # about twice as fast as numpy's for float32 (the shared rfft is complex64)
+
     mag = np.abs(X)
     e = _eps_for(mag, eps)
-    c = np.fft.irfft(np.log(mag + mag.dtype.type(e)), n=n)
+    mag += mag.dtype.type(e)
+    c = scipy.fft.irfft(np.log(mag, out=mag), n=n, overwrite_x=True)
     half = c[: n // 2 + 1].copy()
     return Cepstrum(
         quefrency_s=_readonly(np.arange(half.size) / fs_q),

@@ -332,7 +332,10 @@ def analytic_band_from_rfft(full: FullSpectrum, band_hz, *, decimate: bool = Tru
         y = np.zeros(m, dtype=full.X.dtype)
         y[k_lo:k_hi + 1] = band * gain
         shift = 0.0
-    c = np.fft.ifft(y) * full.X.real.dtype.type(m / n)
+    import scipy.fft  # about twice as fast as numpy's for complex64
+
+    c = scipy.fft.ifft(y, overwrite_x=True)
+    c *= full.X.real.dtype.type(m / n)
     return AnalyticBand(values=_readonly(c), sample_rate_hz=fs * m / n, band_hz=(k_lo * df, k_hi * df), shift_hz=shift)
 
 
