@@ -355,6 +355,9 @@ def _rms_block(spectrum: Spectrum, f: np.ndarray, a: np.ndarray) -> np.ndarray:
     if spectrum.scaling == "rms":
         return a.copy()
     out = a / np.sqrt(2.0)
+    fs = spectrum.sample_rate_hz
+    if f.size and float(f.min()) > 0.0 and float(f.max()) < fs / 2.0 - 1e-9 * fs:
+        return out                                     # neither a DC nor a Nyquist line here
     nyquist = np.isclose(f, spectrum.sample_rate_hz / 2.0, rtol=0, atol=1e-9 * spectrum.sample_rate_hz)
     edge = (f == 0.0) | ((spectrum.nperseg % 2 == 0) & (spectrum.average != "band") & nyquist)
     out[edge] = a[edge]
@@ -937,13 +940,18 @@ def integrate_spectrum(freq_hz, amplitude, *, units: str = "g", to: str = "veloc
     for i in range(0, fr.size, _BLOCK_BINS):  # float64 arithmetic in blocks: small temporaries
         fb = fr[i:i + _BLOCK_BINS]
         a_si = ar[i:i + _BLOCK_BINS].astype(np.float64) * (G_N_M_S2 if units == "g" else 1.0)
-        keep = (fb >= cutoff_hz) & (fb > 0)
-        omega = 2.0 * np.pi * np.where(keep, fb, 1.0)
+        if fb.size and float(fb.min()) >= cutoff_hz and float(fb.min()) > 0:
+            keep = None                                # every line of the block is kept
+            omega = 2.0 * np.pi * fb
+        else:
+            keep = (fb >= cutoff_hz) & (fb > 0)
+            omega = 2.0 * np.pi * np.where(keep, fb, 1.0)
         if to == "velocity":
             ob = a_si / omega * 1e3
         else:
             ob = a_si / omega**2 * 1e6
-        ob[~keep] = 0.0
+        if keep is not None:
+            ob[~keep] = 0.0
         orr[i:i + _BLOCK_BINS] = ob
     return out
 
