@@ -175,9 +175,10 @@ def window_values(window: str, n: int, dtype=np.float64) -> np.ndarray:
     phase = np.arange(n, dtype=np.float64)
     phase *= 2.0 * np.pi
     phase /= n
-    w = np.zeros(n)
+    coeffs = WINDOWS[window]
+    w = np.full(n, float(coeffs[0]))         # the k = 0 term: a_0 cos(0) = a_0 exactly
     term = np.empty(n)
-    for k, a in enumerate(WINDOWS[window]):  # in place: two temporaries whatever the length
+    for k, a in enumerate(coeffs[1:], start=1):  # in place: two temporaries whatever the length
         np.multiply(phase, k, out=term)
         np.cos(term, out=term)
         term *= (-1) ** k * a
