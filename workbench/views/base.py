@@ -46,8 +46,9 @@ class AnalysisView(QWidget):
         self._layout.addLayout(self.controls)
         self.caption = QLabel("")
         self.caption.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
-        # long captions must not widen the window: they are cut at the right instead
+        # long captions must not widen the window: they wrap onto more lines instead
         self.caption.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)
+        self.caption.setWordWrap(True)
         self.caption.setAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
         self._unsubscribe = session.subscribe(self._on_event, self.listens_to)
         self.destroyed.connect(lambda *_: self._unsubscribe())
