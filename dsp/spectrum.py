@@ -293,8 +293,8 @@ class FullSpectrum:
     Attributes
     ----------
     X : numpy.ndarray
-        ``numpy.fft.rfft(x)`` (complex64 for float32 input, else complex128),
-        read-only, ``n // 2 + 1`` bins.
+        ``scipy.fft.rfft(x)``, equal to ``numpy.fft.rfft(x)`` to rounding (complex64
+        for float32 input, else complex128), read-only, ``n // 2 + 1`` bins.
     n : int
         Number of samples of the signal.
     fs : float
