@@ -157,3 +157,16 @@ def test_segmented_resampling_has_no_seams(monkeypatch):
         truth = sum(np.cos(2 * np.pi * k * sig.angle_rev + (0.7 if k == 6 else 0.0)) for k in kept)
         # Fyfe & Munck 1997 with our interpolation bound (5.6e-4 per component) and the low-pass edge
         assert np.max(np.abs(sig.values - truth)) < 2e-3
+
+
+@pytest.mark.parametrize("n_revs, P", [(1499, 64), (499, 8), (13, 2), (1024, 16)])
+def test_power_spectrum_of_prime_revolution_counts_matches_numpy(n_revs, P):
+    """The order spectrum's power at N x P samples (N prime or not) against numpy's rfft."""
+    from dsp.orders import _power_spectrum
+
+    x = np.random.default_rng(n_revs).standard_normal(n_revs * P)
+    ref = np.abs(np.fft.rfft(x)) ** 2
+    got = _power_spectrum(x, P)
+    # numpy as the reference implementation (Cooley & Tukey 1965 index map: equal to rounding)
+    assert got.shape == ref.shape
+    np.testing.assert_allclose(got, ref, rtol=1e-9, atol=1e-9 * ref.max())
