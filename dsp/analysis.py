@@ -187,10 +187,24 @@ def _time_range(settings: Settings, n_frames: int, fs: float) -> tuple[int, int]
     return i0, i1
 
 
-def _speed(recording, model, x: np.ndarray, i0: int, i1: int, fs: float, reference: str, warn: list[str]):
-    """Speed profile of the reference shaft (time 0 at sample ``i0``) and the tach pulses."""
+def reference_speed(recording, model, x: np.ndarray | None, i0: int, i1: int, reference: str,
+                    warn: list[str]):
+    """Speed profile of the reference shaft (time 0 at sample ``i0``) and the tach pulses.
+
+    From the tach channel when it gives pulses; else, with ``tach.nominal_rpm``, estimated
+    from the mesh phase of the sensor signal ``x`` (:func:`dsp.speed_estimate.estimate_speed`,
+    the first sensor's signal when ``x`` is None), else the nominal speed held constant.
+    Every fallback and a tach far from the nominal speed add a sentence to ``warn``.
+    ``gearbench analyze`` and ``gearbench info`` both use it, so they agree.
+
+    Returns
+    -------
+    (SpeedProfile, TachPulses or None)
+    """
     from .errors import AnalysisError, TachError
-    from .tach import detect_pulses, nominal_profile, speed_profile
+    from .tach import detect_pulses, nominal_mismatch, nominal_profile, speed_profile
+
+    fs = float(recording.sample_rate_hz)
 
     tach = model.tach
     duration = (i1 - i0) / fs
@@ -212,6 +226,7 @@ def _speed(recording, model, x: np.ndarray, i0: int, i1: int, fs: float, referen
                         f"gear mesh and tach.nominal_rpm instead: check the tach wiring and channel number.")
         else:
             profile = speed_profile(pulses, reference)
+            warn.extend(nominal_mismatch(60.0 * profile.mean_hz, rpm))
             if pulses.n_repaired or pulses.n_rejected:
                 warn.append(
                     f"tach repaired: {pulses.n_repaired} missing pulses inserted and {pulses.n_rejected} extra "
@@ -226,6 +241,8 @@ def _speed(recording, model, x: np.ndarray, i0: int, i1: int, fs: float, referen
     from .speed_estimate import estimate_speed
 
     try:
+        if x is None:
+            x = _estimation_signal(recording, model, i0, i1)
         est = estimate_speed(x, fs, model, nominal_rpm=float(rpm), reference_shaft=reference)
     except (TachError, AnalysisError) as exc:
         warn.append(f"speed estimate failed ({exc}); the nominal speed {rpm:g} rpm is used as constant.")
@@ -244,6 +261,17 @@ def _speed(recording, model, x: np.ndarray, i0: int, i1: int, fs: float, referen
         "good as that assumption."
     )
     return profile, None
+
+
+def _estimation_signal(recording, model, i0: int, i1: int) -> np.ndarray:
+    """The first sensor's signal over samples ``i0:i1``, non-finite samples set to 0."""
+    from .errors import AnalysisError
+    from .recording import sensor_signal
+
+    if not model.sensors:
+        raise AnalysisError("the model has no sensor to estimate the speed from")
+    x = sensor_signal(recording, model.sensors[0])[i0:i1]
+    return np.where(np.isfinite(x), x, np.float32(0)).astype(np.float32, copy=False)
 
 
 #: Samples per block for the whole-record moments (keeps float64 temporaries small).
@@ -679,7 +707,7 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
 
     step(0.05, "speed of the reference shaft")
     reference = model.tach.shaft or model.shafts[0].name
-    profile, pulses = _speed(recording, model, x, i0, i1, fs, reference, warn)
+    profile, pulses = reference_speed(recording, model, x, i0, i1, reference, warn)
     spread = (profile.max_hz - profile.min_hz) / profile.mean_hz if profile.mean_hz > 0 else 0.0
     if spread > SPEED_SPREAD_WARN:
         warn.append(

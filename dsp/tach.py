@@ -787,3 +787,30 @@ def fyfe_munck_time(theta, b):
     dtheta = np.asarray(theta, dtype=np.float64) - b0
     out = 2.0 * dtheta / (np.sqrt(b1 * b1 + 4.0 * b2 * dtheta) + b1)
     return float(out) if out.ndim == 0 else out
+
+
+#: A tach speed outside these ratios to ``tach.nominal_rpm`` is suspect (common practice, no
+#: source: induction motors run a few percent below synchronous speed, drives rarely beyond +-20 %).
+NOMINAL_RATIO = (0.8, 1.25)
+
+
+def nominal_mismatch(rpm: float, nominal_rpm: float | None) -> list[str]:
+    """A warning when the tach speed is far from the model's nominal speed.
+
+    A tach that reads far from the nameplate usually means the wrong channel (sensor and
+    tach swapped) or a wrong ``pulses_per_rev``; every frequency would then be wrong.
+
+    Parameters
+    ----------
+    rpm : float
+        Mean speed measured by the tach, rpm.
+    nominal_rpm : float or None
+        ``tach.nominal_rpm`` of the model; no check without it.
+    """
+    if nominal_rpm is None or not nominal_rpm > 0 or not math.isfinite(rpm):
+        return []
+    ratio = rpm / nominal_rpm
+    if NOMINAL_RATIO[0] <= ratio <= NOMINAL_RATIO[1]:
+        return []
+    return [f"the tach gives {rpm:.6g} rpm, {ratio:.3g} times tach.nominal_rpm {nominal_rpm:g}; check tach.channel "
+            "(are the sensor and tach channels swapped?) and tach.pulses_per_rev before trusting any frequency"]

@@ -348,3 +348,16 @@ def test_inputs_are_not_modified(tmp_path, sim):
     before = rec.data.copy()
     analyze(rec, _train())
     np.testing.assert_array_equal(rec.data, before)   # NaN stay NaN in the recording itself
+
+
+def test_swapped_sensor_and_tach_channels_are_called_out(tmp_path, sim):
+    path = _write(tmp_path, "swapped.flac", _frames(sim))
+    rec = read_recording(path)
+    # the model says the tach is on the accelerometer's channel and the sensor on the tach's
+    swapped = dataclasses.replace(
+        _train(), sensors=(Sensor(name="acc", channel=1, scale=50.0, units="g"),),
+        tach=dataclasses.replace(_train().tach, channel=0))
+    result = analyze(rec, swapped)
+    text = " ".join(result.warnings)
+    # a tach far from the nameplate speed means a wrong channel or pulses/rev (common practice, no source)
+    assert _says(text, "nominal_rpm", "swapped", "tach.channel")

@@ -52,84 +52,15 @@ def _channel_roles(train, n_channels: int) -> dict[int, str]:
 
 
 def _speed(rec, train, warnings: list[str]):
-    """(profile, pulses) of the reference shaft from the model's tach, else from the mesh.
-
-    Without a usable tach channel but with ``nominal_rpm``, the speed is estimated
-    from the first sensor's mesh phase as ``gearbench analyze`` does
-    (:func:`dsp.speed_estimate.estimate_speed`), so both commands agree.
-    """
-    from dsp.errors import TachError
-    from dsp.tach import detect_pulses, speed_profile
+    """(profile, pulses) of the reference shaft, exactly as ``gearbench analyze`` finds them
+    (:func:`dsp.analysis.reference_speed`); (None, None) when the model gives no speed."""
+    from dsp.analysis import reference_speed
 
     tach = train.tach
+    if tach.channel is None and tach.nominal_rpm is None:
+        return None, None
     reference = tach.shaft or (train.shafts[0].name if train.shafts else "")
-    if tach.channel is not None:
-        try:
-            pulses = detect_pulses(rec.channel(tach.channel), rec.sample_rate_hz,
-                                   pulses_per_rev=tach.pulses_per_rev, edge=tach.edge)
-        except TachError as exc:
-            if tach.nominal_rpm is None:
-                raise
-            warnings.append(f"tach channel {tach.channel} unusable ({exc})")
-            return _estimated(rec, train, reference, warnings), None
-        warnings.extend(pulses.warnings)
-        if (pulses.n_repaired or pulses.n_rejected) and not any("inserted" in w for w in pulses.warnings):
-            warnings.append(f"tach repaired: {pulses.n_repaired} pulse(s) inserted, "
-                            f"{pulses.n_rejected} rejected out of {pulses.n_found} found")
-        profile = speed_profile(pulses, reference)
-        warnings.extend(nominal_mismatch(60.0 * profile.mean_hz, tach.nominal_rpm))
-        return profile, pulses
-    if tach.nominal_rpm is not None:
-        return _estimated(rec, train, reference, warnings), None
-    return None, None
-
-
-#: A tach speed outside these ratios to tach.nominal_rpm is suspect (common practice, no source:
-#: induction motors run a few percent below synchronous speed, drives rarely beyond +-20 %).
-NOMINAL_RATIO = (0.8, 1.25)
-
-
-def nominal_mismatch(rpm: float, nominal_rpm: float | None) -> list[str]:
-    """A warning when the tach speed is far from the model's nominal speed (wrong channel or pulses/rev)."""
-    if nominal_rpm is None or not nominal_rpm > 0 or not math.isfinite(rpm):
-        return []
-    ratio = rpm / nominal_rpm
-    if NOMINAL_RATIO[0] <= ratio <= NOMINAL_RATIO[1]:
-        return []
-    return [f"the tach gives {rpm:.6g} rpm, {ratio:.3g} times tach.nominal_rpm {nominal_rpm:g}; check tach.channel "
-            "(are the sensor and tach channels swapped?) and tach.pulses_per_rev before trusting any frequency"]
-
-
-def _estimated(rec, train, reference: str, warnings: list[str]):
-    """Speed profile estimated from the first sensor's mesh phase, else the nominal speed."""
-    import numpy as np
-
-    from dsp.errors import GearbenchError
-    from dsp.recording import sensor_signal
-    from dsp.speed_estimate import estimate_speed
-    from dsp.tach import nominal_profile
-
-    rpm = float(train.tach.nominal_rpm)
-    if train.sensors and (train.meshes or train.planetary):
-        try:
-            x = sensor_signal(rec, train.sensors[0])
-            if not np.all(np.isfinite(x)):
-                x = np.nan_to_num(x, nan=0.0, posinf=0.0, neginf=0.0)
-            est = estimate_speed(x, rec.sample_rate_hz, train, nominal_rpm=rpm, reference_shaft=reference)
-        except (GearbenchError, ValueError) as exc:
-            warnings.append(f"speed estimate failed ({exc}); the nominal speed {rpm:g} rpm is assumed constant")
-        else:
-            if est.method != "nominal":
-                warnings.append(f"no tach: the speed was estimated from harmonic {est.harmonic} of {est.mesh} "
-                                f"({est.method}), {est.offset_pct:+.2f} % from the nominal {rpm:g} rpm")
-                return est.profile
-            warnings.append(f"no tach and no mesh line clear enough to follow: the nominal speed {rpm:g} rpm "
-                            "is assumed constant")
-            return est.profile
-    else:
-        warnings.append(f"no tach: the nominal speed {rpm:g} rpm is assumed constant (the model has no "
-                        "sensor or mesh to estimate it from)")
-    return nominal_profile(rpm, rec.duration_s, reference)
+    return reference_speed(rec, train, None, 0, rec.n_frames, reference, warnings)
 
 
 def collect(recording: str, model: str | None = None) -> dict:
