@@ -128,7 +128,9 @@ class Analysis:
         overall, tsa, sidebands, envelope, suspects, warnings`` (see
         ``design.md``), plus ``caution`` and ``settings``.
         """
-        return _clean(_json_dict(self))
+        from .plain import plain_json
+
+        return plain_json(_json_dict(self))
 
 
 # ---------------------------------------------------------------------------
@@ -1002,26 +1004,6 @@ def _cepstrum_support(ceps, table) -> tuple[dict[str, float], dict[str, float]]:
 
 # ---------------------------------------------------------------------------
 # JSON
-
-
-def _clean(obj):
-    """Plain JSON types; NaN and infinities become None."""
-    if isinstance(obj, dict):
-        return {str(k): _clean(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_clean(v) for v in obj]
-    if isinstance(obj, (bool, np.bool_)):
-        return bool(obj)
-    if isinstance(obj, (int, np.integer)):
-        return int(obj)
-    if isinstance(obj, (float, np.floating)):
-        v = float(obj)
-        return v if math.isfinite(v) else None
-    if isinstance(obj, np.ndarray):
-        return _clean(obj.tolist())
-    if obj is None or isinstance(obj, str):
-        return obj
-    return str(obj)
 
 
 def _counted(m):

@@ -50,6 +50,7 @@ from typing import Any, Sequence
 import numpy as np
 
 from .errors import GearbenchError
+from .plain import plain_json
 
 G_N_M_S2 = 9.80665  # standard gravity (exact, BIPM SI Brochure)
 
@@ -363,7 +364,7 @@ class BaselineComparison:
             "units": self.units,
             "notes": list(self.notes),
         }
-        return _clean(d)
+        return plain_json(d)
 
     def summary_lines(self) -> list[str]:
         """Readable text of the comparison (for ``gearbench analyze --baseline``)."""
@@ -397,21 +398,6 @@ def _fmt(x, spec: str = ".3g") -> str:
     if x is None or not isinstance(x, (int, float)) or not math.isfinite(x):
         return "-"
     return format(x, spec)
-
-
-def _clean(obj):
-    if isinstance(obj, dict):
-        return {str(k): _clean(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_clean(v) for v in obj]
-    if isinstance(obj, (bool, np.bool_)):
-        return bool(obj)
-    if isinstance(obj, (int, np.integer)):
-        return int(obj)
-    if isinstance(obj, (float, np.floating)):
-        v = float(obj)
-        return v if math.isfinite(v) else None
-    return obj
 
 
 def _readonly(a) -> np.ndarray:

@@ -14,12 +14,12 @@ they can always be recomputed from it.
 from __future__ import annotations
 
 import dataclasses
-import math
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable, Iterable
 
 from dsp.analysis import Settings
+from dsp.plain import plain_json
 from workbench.views import VIEW_CLASSES
 
 SCHEMA = "gearbench.session/1"
@@ -302,19 +302,6 @@ def _default_shaft(model: Any) -> str | None:
     names = model.shaft_names()
     tach_shaft = getattr(getattr(model, "tach", None), "shaft", "")
     return tach_shaft if tach_shaft in names else names[0]
-
-
-def plain_json(value: Any) -> Any:
-    """Plain JSON types: tuples become lists, paths text, NaN and infinity ``None`` (session, store, snapshots)."""
-    if isinstance(value, dict):
-        return {str(k): plain_json(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [plain_json(v) for v in value]
-    if isinstance(value, Path):
-        return str(value)
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    return value
 
 
 _jsonable = plain_json
