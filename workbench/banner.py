@@ -10,6 +10,24 @@ from PySide6.QtWidgets import QLabel
 from workbench import theme
 
 
+def join_sentences(texts) -> str:
+    """One message per line, each ending with exactly one full stop.
+
+    ``["the speed wanders.", "check the tach"]`` gives
+    ``"The speed wanders.\nCheck the tach."``: no doubled full stop and no ``".;"``.
+    """
+    lines = []
+    for text in texts:
+        text = str(text).strip().rstrip(";").rstrip()
+        if not text:
+            continue
+        text = text[:1].upper() + text[1:]
+        if not text.endswith((".", "!", "?")):
+            text += "."
+        lines.append(text)
+    return "\n".join(lines)
+
+
 class Banner(QLabel):
     """One line (or a few) of messages above the views, coloured by how serious they are."""
 
@@ -34,7 +52,8 @@ class Banner(QLabel):
         if shown:
             self.setStyleSheet(f"background: {self.COLOURS[shown[0][0]]}; color: {theme.FOREGROUND};"
                                " padding: 6px; border-radius: 3px;")
-            self.setText("<br>".join(html.escape(text) for _, text in shown))
+            # every part on its own line(s); a part with several sentences keeps one per line
+            self.setText("<br>".join(html.escape(text).replace("\n", "<br>") for _, text in shown))
 
     def plain_text(self) -> str:
         return "\n".join(text for _, text in self.parts.values())

@@ -233,7 +233,7 @@ def test_cli_report_on_the_demo_and_bad_input(qtbot, tmp_path, capsys):
     capsys.readouterr()
     for argv, words in (
         (["report", str(tmp_path / "missing.flac"), "-o", str(tmp_path / "r.pdf")], "recording not found"),
-        (["report", str(DEMO), "-o", str(tmp_path / "r.docx")], "must end in .pdf or .html"),
+        (["report", str(DEMO), "-o", str(tmp_path / "r.docx")], "use an output name ending in .pdf or .html"),
         (["report", str(DEMO), "--model", str(tmp_path / "none.toml"), "-o", str(tmp_path / "r.pdf")], "model file"),
         (["report", str(DEMO), "-o", str(tmp_path / "no" / "r.pdf")], "does not exist"),
     ):

@@ -29,7 +29,9 @@ def run(args) -> int:
 
     out = Path(args.output)
     if out.suffix.lower() not in (".pdf", ".html", ".htm"):
-        raise ReportError(f"output {out.name} must end in .pdf or .html")
+        kind = f"a {out.suffix} file" if out.suffix else "a file without a type"
+        raise ReportError(f"the report cannot be written as {kind} ({out.name}); use an output name "
+                          "ending in .pdf or .html")
     if not out.parent.is_dir():
         raise ReportError(f"the folder {out.parent} does not exist; create it or choose another output")
     if args.model is not None and not Path(args.model).is_file():

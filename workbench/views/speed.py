@@ -1,6 +1,13 @@
-"""Speed view: the speed profile of the selected shaft in rpm, repaired tach pulses marked."""
+"""Speed view: the speed profile of the selected shaft in rpm, repaired tach pulses marked.
+
+The caption says where the speed came from in plain words: the tach, an estimate from
+the phase of a mesh line (no tach), or the nominal speed (no tach).  The legend entry
+for repaired tach pulses appears only when pulses were repaired.
+"""
 
 from __future__ import annotations
+
+import re
 
 import numpy as np
 import pyqtgraph as pg
@@ -9,6 +16,31 @@ from workbench import theme
 from workbench.views.base import AnalysisView
 
 N_POINTS = 2000
+# the analysis names the mesh it followed in its warning: "... estimated from harmonic 1 of stage 1 (mesh phase, ..."
+_ESTIMATE = re.compile(r"estimated from harmonic (\d+) of (.+?) \(([^,)]+)")
+
+
+def speed_source_text(profile, warnings=()) -> str:
+    """Where the speed came from, in the analyst's words.
+
+    ``"speed from the tach"``, ``"speed estimated from the stage 1 mesh phase (no tach)"``
+    or ``"nominal speed (no tach)"``.
+    """
+    source = getattr(profile, "source", "")
+    if source == "tach":
+        return "speed from the tach"
+    if source == "estimated":
+        for text in warnings or ():
+            found = _ESTIMATE.search(str(text))
+            if found:
+                harmonic, mesh, method = int(found.group(1)), found.group(2), found.group(3).strip()
+                what = "phase" if "phase" in method else "line"
+                which = f"{mesh} mesh" if harmonic == 1 else f"{mesh} mesh harmonic {harmonic}"
+                return f"speed estimated from the {which} {what} (no tach)"
+        return "speed estimated from a mesh line (no tach)"
+    if source == "nominal":
+        return "nominal speed (no tach)"
+    return f"speed from {source}"
 
 
 class SpeedView(AnalysisView):
@@ -24,7 +56,7 @@ class SpeedView(AnalysisView):
                                        symbolPen=pg.mkPen(theme.MARK_REPAIRED, width=2), symbolBrush=None)
         self.legend = self.plot.addLegend(offset=(-10, 10))
         self.legend.addItem(self.curve, "speed")
-        self.legend.addItem(self.repaired, "repaired tach pulse")
+        self._legend_repaired = False     # the repaired-pulse entry is listed only when pulses were repaired
 
     def data_items(self):
         return [self.curve]
@@ -52,16 +84,28 @@ class SpeedView(AnalysisView):
             self.repaired.setData(times, np.asarray(profile.speed_hz(times), dtype=float) * ratio * 60.0)
         else:
             self.repaired.setData([], [])
+        self._show_repaired_in_legend(n_repaired > 0)
         self.caption.setText(
             f"{shaft}: mean {profile.mean_hz * ratio * 60:.1f} rpm, "
             f"range {profile.min_hz * ratio * 60:.1f} to {profile.max_hz * ratio * 60:.1f} rpm; "
-            f"speed from {profile.source}"
+            + speed_source_text(profile, getattr(analysis, "warnings", ()))
             + (f"; {n_repaired} tach pulse{'s' if n_repaired != 1 else ''} repaired" if pulses is not None else ""))
         span = float(np.ptp(rpm))
         mid = float(np.mean(rpm))
         pad = max(span * 0.2, abs(mid) * 0.01, 1.0)
         self.plot.setYRange(float(rpm.min()) - pad, float(rpm.max()) + pad, padding=0)
         self.plot.setXRange(profile.t_start_s, profile.t_end_s, padding=0.01)
+
+    def legend_texts(self) -> list[str]:
+        """The legend's entries, top to bottom."""
+        return [label.text for _, label in self.legend.items]
+
+    def _show_repaired_in_legend(self, show: bool) -> None:
+        if show and not self._legend_repaired:
+            self.legend.addItem(self.repaired, "repaired tach pulse")
+        elif not show and self._legend_repaired:
+            self.legend.removeItem(self.repaired)
+        self._legend_repaired = show
 
     def _ratio(self, tach_shaft: str, shaft: str) -> float:
         """Speed of ``shaft`` per unit speed of the tach shaft, from the frequency table."""
