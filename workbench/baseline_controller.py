@@ -146,7 +146,7 @@ class BaselineController(QObject):
         self.session = window.session
         self.runner = window.runner
         self.panel = BaselinePanel()
-        self.dock = QDockWidget("Baseline and severity", window)
+        self.dock = QDockWidget("Baseline", window)   # short: the stacked docks' tabs read fully (severity inside)
         self.dock.setObjectName("baseline_dock")
         from PySide6.QtWidgets import QScrollArea
 

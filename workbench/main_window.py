@@ -23,7 +23,7 @@ from PySide6.QtWidgets import (QComboBox, QDockWidget, QHBoxLayout, QLabel, QMai
                                QProgressBar, QPushButton, QSizePolicy, QSplitter, QTabWidget, QVBoxLayout, QWidget)
 
 from workbench import theme
-from workbench.banner import Banner
+from workbench.banner import Banner, join_sentences
 from workbench.file_menu import MODEL_SUFFIXES, N_RECENT, RECORDING_SUFFIXES, FileMenu  # noqa: F401 - importable here
 from workbench.jobs import AnalysisRunner
 from workbench.results_panel import ResultsPanel
@@ -47,6 +47,15 @@ def default_size(preferred: tuple[int, int] = DEFAULT_SIZE) -> tuple[int, int]:
         return preferred            # no real screen: the size asked for (screenshots, tests)
     free = screen.availableGeometry()
     return min(preferred[0], free.width()), min(preferred[1], free.height())
+
+
+def _without_name(exc: Exception, path: Path) -> str:
+    """The message of ``exc`` without a leading ``"NAME: "`` (the caller names the file already)."""
+    text = str(exc)
+    for prefix in (f"{path}: ", f"{path.name}: ", f"'{path}': ", f"'{path.name}': "):
+        if text.startswith(prefix):
+            return text[len(prefix):]
+    return text
 
 
 def _model_form_widget():
@@ -90,6 +99,12 @@ class MainWindow(FileMenu, QMainWindow):
         self.analysis: Any = None
         self.recording: Any = None
         self.last_error: str | None = None
+        # the analyst's shaft choice for this recording: until they choose, each new analysis
+        # selects its top suspect's shaft (and a bearing suspect's defect lines are labelled)
+        self.shaft_chosen = False
+        self._auto_selecting = False
+        self._default_shaft: str | None = None
+        self.focus_chosen = False
         self._build_central()
         self._build_docks()
         self._build_status()
@@ -114,10 +129,21 @@ class MainWindow(FileMenu, QMainWindow):
 
     def showEvent(self, event):  # noqa: N802 - Qt override
         super().showEvent(event)
+        self.unelide_dock_tabs()
         # side docks in proportion to the window: the views keep about half of a laptop screen's width
         width = self.width()
-        self.resizeDocks(list(self._docks), [max(270, min(410, width // 4)), max(285, min(380, width * 23 // 100))],
+        # (the results dock a little wider than the form: its tables' key columns must read without scrolling)
+        self.resizeDocks(list(self._docks), [max(250, min(400, width * 22 // 100)), max(300, min(390, width * 26 // 100))],
                          Qt.Orientation.Horizontal)
+
+    def unelide_dock_tabs(self) -> None:
+        """Tabs of docks stacked together show their whole titles (scroll buttons when they do not fit)."""
+        from PySide6.QtWidgets import QTabBar
+
+        for bar in self.findChildren(QTabBar):
+            if bar is not self.tabs.tabBar() and bar.elideMode() != Qt.TextElideMode.ElideNone:
+                bar.setElideMode(Qt.TextElideMode.ElideNone)
+                bar.setUsesScrollButtons(True)
 
     def paintEvent(self, event):  # noqa: N802 - Qt override
         super().paintEvent(event)
@@ -178,6 +204,7 @@ class MainWindow(FileMenu, QMainWindow):
         left.setFeatures(QDockWidget.DockWidgetFeature.DockWidgetMovable | QDockWidget.DockWidgetFeature.DockWidgetFloatable)
         self.addDockWidget(Qt.DockWidgetArea.LeftDockWidgetArea, left)
         self.results = ResultsPanel()
+        self.results.component_chosen.connect(self._on_component_chosen)
         self.results.suspect_chosen.connect(self.show_suspect)
         self.results.sideband_chosen.connect(self.show_sideband_family)
         right = QDockWidget("Results", self)
@@ -237,6 +264,10 @@ class MainWindow(FileMenu, QMainWindow):
             return False
         self.runner.cancel()
         self.analysis, self.recording, self.last_error = None, None, None
+        if not loading:
+            # another recording: its top suspect's shaft is shown until the analyst chooses one
+            self.shaft_chosen = self.focus_chosen = False
+            self.views["envelope"].set_focus_bearing(None)
         for view in self.views.values():
             view.clear()
         for key in ("analysis", "warnings", "model", "first_steps"):
@@ -270,7 +301,7 @@ class MainWindow(FileMenu, QMainWindow):
         try:
             model = load_model(path)
         except (GearbenchError, OSError) as exc:
-            self.banner.set_part("model", "error", f"Could not load the model {path.name}: {exc}")
+            self.banner.set_part("model", "error", f"Could not load the model {path.name}: {_without_name(exc, path)}")
             if self.form is not None:
                 self.form.load_file(path)   # marks the fields in the form
             return False
@@ -321,6 +352,7 @@ class MainWindow(FileMenu, QMainWindow):
 
     def _on_session_event(self, event) -> None:
         if event.kind == "model":
+            self._default_shaft = self.session.selected_shaft   # set_model may announce its default next
             if event.value is not None:
                 self.banner.set_part("first_steps", "info", None)
             self._fill_shafts()
@@ -329,6 +361,9 @@ class MainWindow(FileMenu, QMainWindow):
         elif event.kind == "settings":
             self._rerun.start()
         elif event.kind == "shaft":
+            if not self._auto_selecting and event.value != self._default_shaft:
+                self.shaft_chosen = True    # the analyst (or a session file, or --shaft) chose it
+            self._default_shaft = None
             if self.shaft_combo.currentText() != (event.value or ""):
                 self.shaft_combo.setCurrentText(event.value or "")
         elif event.kind == "view":
@@ -395,13 +430,14 @@ class MainWindow(FileMenu, QMainWindow):
         self.last_error = None
         if self.form is not None:
             self.form.set_n_channels(self.recording.n_channels)
+        self._follow_top_suspect(self.analysis)
         for view in self.views.values():
             view.show_analysis(self.analysis, self.recording)
         self.results.show_analysis(self.analysis)
         self.frequency_panel.set_table(self.analysis.frequencies)
         self.banner.set_part("analysis", "error", None)
         warnings = list(self.analysis.warnings)
-        self.banner.set_part("warnings", "warning", "; ".join(warnings) if warnings else None)
+        self.banner.set_part("warnings", "warning", join_sentences(warnings) if warnings else None)
         self._set_busy(False, f"Analysed in {result.elapsed_s:.2f} s")
         self.analysis_shown.emit(self.analysis)
         self.idle.emit()
@@ -442,10 +478,45 @@ class MainWindow(FileMenu, QMainWindow):
         return self.runner.is_busy() or self._rerun.isActive()
 
     # ------------------------------------------------------------------ navigation
+    def choose_shaft(self, name: str) -> None:
+        """Select ``name`` as the analyst's choice: new analyses no longer move to their top suspect."""
+        self.shaft_chosen = True
+        self.session.select_shaft(name)
+
+    def _follow_top_suspect(self, analysis: Any) -> None:
+        """Until the analyst chose a shaft for this recording, show the top suspect's shaft everywhere.
+
+        A bearing top suspect also has its defect lines labelled on the envelope view
+        (unless the analyst picked another suspect there).
+        """
+        suspects = tuple(getattr(analysis, "suspects", ()) or ())
+        top = suspects[0] if suspects else None
+        if not self.focus_chosen:
+            component = str(getattr(top, "component", ""))
+            self.views["envelope"].set_focus_bearing(
+                component.partition(":")[2] if component.startswith("bearing:") else None,
+                getattr(top, "kind", ""))
+        if self.shaft_chosen or top is None:
+            return
+        shaft = getattr(top, "shaft", "") or self.results.shaft_of(getattr(top, "component", ""))
+        model = self.session.model
+        if shaft and model is not None and shaft in model.shaft_names():
+            self._auto_selecting = True
+            try:
+                self.session.select_shaft(shaft)
+            finally:
+                self._auto_selecting = False
+
+    def _on_component_chosen(self, component: str, kind: str) -> None:
+        """The analyst clicked a suspect: a bearing's defect lines are labelled on the envelope view."""
+        self.focus_chosen = True
+        name = component.partition(":")[2] if component.startswith("bearing:") else None
+        self.views["envelope"].set_focus_bearing(name, kind)
+
     def show_suspect(self, view: str, shaft: str) -> None:
         """Select the suspect's shaft and show the view that best supports it."""
         if shaft and self.session.model is not None and shaft in self.session.model.shaft_names():
-            self.session.select_shaft(shaft)
+            self.choose_shaft(shaft)
         if view in VIEW_NAMES:
             self.session.set_current_view(view)
 

@@ -68,7 +68,7 @@ DEFAULT_LABELLED = ("mesh harmonics",)
 N_LABELS = 16
 N_LABEL_ROWS = 3
 #: Room kept around a label's text (the text item's margin and a gap), screen px.
-LABEL_PAD_PX = 10.0
+LABEL_PAD_PX = 16.0
 
 
 @dataclass
@@ -111,6 +111,8 @@ class ModelOverlay(QObject):
         self.labels: list[pg.TextItem] = []     # reused label items (see _place_labels)
         self.label_shaft: str | None = None      # label only this shaft's lines (and lines of no shaft)
         self.label_max_harmonic: int | None = None
+        self.label_focus: str | None = None      # a family prefix ("bearing:NAME") labelled first, every harmonic
+        self.label_focus_first: str | None = None  # within the focus, the family labelled before the others
         self.plot_item = plot_item
         self.n_harmonics = int(n_harmonics)
         self.n_sidebands = int(n_sidebands)
@@ -290,10 +292,18 @@ class ModelOverlay(QObject):
             items.spread.setVisible(self._visible[family] and m > 0)
         self._place_labels()
 
-    def set_label_filter(self, *, shaft: str | None = None, max_harmonic: int | None = None) -> None:
-        """Label only the lines of ``shaft`` (and those of no shaft) up to ``max_harmonic`` (None: all)."""
-        if (shaft, max_harmonic) != (self.label_shaft, self.label_max_harmonic):
-            self.label_shaft, self.label_max_harmonic = shaft, max_harmonic
+    def set_label_filter(self, *, shaft: str | None = None, max_harmonic: int | None = None,
+                         focus: str | None = None, focus_first: str | None = None) -> None:
+        """Label only the lines of ``shaft`` (and those of no shaft) up to ``max_harmonic`` (None: all).
+
+        ``focus`` (a family prefix such as ``"bearing:intermediate NDE"``) names an element whose
+        lines are labelled first, every harmonic drawn, whatever ``shaft`` is; the other lines of
+        its family group are then left unlabelled so the focus reads clearly.  ``focus_first``
+        (a whole family such as ``"bearing:intermediate NDE bpfo"``) goes before the focus' others.
+        """
+        wanted = (shaft, max_harmonic, focus, focus_first)
+        if wanted != (self.label_shaft, self.label_max_harmonic, self.label_focus, self.label_focus_first):
+            self.label_shaft, self.label_max_harmonic, self.label_focus, self.label_focus_first = wanted
             self._place_labels()
 
     def label_texts(self) -> list[tuple[float, str]]:
@@ -302,10 +312,18 @@ class ModelOverlay(QObject):
 
     def _place_labels(self, *_args) -> None:
         """Name the lines of the labelled families that are in view, in staggered rows, without overlaps."""
+        focus = self.label_focus
+        def in_focus(ln) -> bool:   # the focus element's own lines ("bearing:NAME bpfo"), not "bearing:NAME 2 ..."
+            rest = ln.family[len(focus) + 1:] if focus is not None and ln.family.startswith(focus + " ") else None
+            return focus is not None and (ln.family == focus or (rest is not None and " " not in rest))
+
+        focus_group = next((ln.group for ln in self._lines if in_focus(ln)), None)
         wanted = [line for line in self._lines if line.group in self.labelled and self._visible[line.group]
                   and not line.family.endswith((" hunting tooth", " assembly phase"))
-                  and (self.label_shaft is None or line.shaft in (None, self.label_shaft))
-                  and (self.label_max_harmonic is None or line.harmonic <= self.label_max_harmonic)]
+                  and (in_focus(line) or (
+                      line.group != focus_group
+                      and (self.label_shaft is None or line.shaft in (None, self.label_shaft))
+                      and (self.label_max_harmonic is None or line.harmonic <= self.label_max_harmonic)))]
         shown: list[tuple[float, int, str, str]] = []
         if wanted and self.table is not None:
             vb = self.plot_item.getViewBox()
@@ -313,7 +331,10 @@ class ModelOverlay(QObject):
             px = abs(vb.viewPixelSize()[0]) or 1.0
             free = [-np.inf] * N_LABEL_ROWS      # right end of the last label in each row, px
             metrics = QFontMetricsF(QGuiApplication.font())
-            for line in sorted(wanted, key=lambda ln: (ln.harmonic, ln.hz)):
+            def rank(ln):   # the focus first (its chosen family before its others), then low harmonics
+                return (not in_focus(ln), ln.family != self.label_focus_first, ln.harmonic, ln.hz)
+
+            for line in sorted(wanted, key=rank):
                 x = line.hz * self.scale
                 if not x0 <= x <= x1 or len(shown) >= N_LABELS:
                     continue
@@ -429,7 +450,12 @@ class OverlayLegend(QWidget):
                 box.setChecked(self.overlay.family_visible(name))
                 box.blockSignals(False)
         shown = [n for n in FAMILIES if self.overlay.family_visible(n)]
-        self.menu_button.setText(f"Model lines ({len(shown)} of {len(FAMILIES)})")
+        # short text so the button reads fully on a narrow window; the long form is its tooltip
+        self.menu_button.setText(f"Lines {len(shown)}/{len(FAMILIES)}")
+        self.menu_button.setToolTip(f"Model lines: {len(shown)} of {len(FAMILIES)} families drawn"
+                                    f" ({', '.join(shown) or 'none'}); click to choose which")
+        # room for the menu arrow, which the style draws over the text otherwise
+        self.menu_button.setMinimumWidth(self.menu_button.sizeHint().width() + 14)
         entries = self.overlay.legend_entries()
         if [label.property("shaft") for label in self.shaft_labels] == [n for n, _ in entries]:
             return

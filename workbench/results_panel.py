@@ -15,21 +15,35 @@ from PySide6.QtGui import QColor
 from PySide6.QtWidgets import (QAbstractItemView, QGroupBox, QHeaderView, QLabel, QListWidget,
                                QListWidgetItem, QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget)
 
-from dsp.indicators import TSA_KEYS
+from dsp.indicators import TSA_INDICATORS, TSA_KEYS
 from workbench import theme
 
 OVERALL_KEYS = (
     ("rms", "RMS"), ("peak", "peak"), ("crest_factor", "crest factor"), ("kurtosis", "kurtosis"),
     ("velocity_rms_mm_s", "velocity RMS (mm/s)"), ("clipped", "clipped"),
 )
+# compact headers so the key columns fit a narrow dock; the long form is each header's tooltip,
+# and the carrier frequency and the owner's score are in each row's tooltip
 SIDEBAND_COLUMNS = (
-    ("mesh", "mesh"), ("harmonic", "GMF×"), ("carrier_hz", "carrier Hz"), ("owner_shaft", "owner shaft"),
-    ("owner_score", "owner score"), ("spacing_hz", "spacing Hz"), ("n_found", "sidebands"),
-    ("sideband_index", "SI"), ("sideband_level_factor", "SLF"),
+    ("carrier", "carrier"), ("owner_shaft", "owner"), ("sideband_index", "SI"), ("sideband_level_factor", "SLF"),
 )
+#: Significant digits of SI and SLF in the table (the tooltip has them to 4 digits).
+N_RATIO_DIGITS = 3
+SIDEBAND_TIPS = {
+    "carrier": "the mesh harmonic carrying the family: stage 1 ×2 = twice the gear mesh frequency of stage 1",
+    "owner_shaft": "the shaft whose rotation rate spaces the sidebands (the shaft that modulates the mesh)",
+    "sideband_index": "sideband index SI: mean of the two first-order sidebands over the carrier",
+    "sideband_level_factor": "sideband level factor SLF: sum of the two first-order sidebands over the RMS",
+}
+OWNER_COLUMN = [key for key, _ in SIDEBAND_COLUMNS].index("owner_shaft")
+# the TSA table: the local-damage and wear indicators first, so they stay in view in a narrow dock
+TSA_ORDER = ("fm4", "na4", "er", "fm0", "m6a", "m8a", "kurtosis", "rms")
+TSA_COLUMNS = tuple(k for k in TSA_ORDER if k in TSA_KEYS) + tuple(k for k in TSA_KEYS if k not in TSA_ORDER)
 
 
 def _sideband_value(family: Any, key: str) -> Any:
+    if key == "carrier":       # "stage 1 ×2": the mesh and the harmonic in one short cell
+        return f"{getattr(family, 'mesh', '')} ×{getattr(family, 'harmonic', '')}"
     if key == "owner_score":   # the ownership score of the winning shaft, 0..1
         candidates = getattr(family, "candidates", None) or {}
         return candidates.get(getattr(family, "owner_shaft", None))
@@ -51,6 +65,13 @@ def fmt(value: Any) -> str:
             return f"{value:.3e}"
         return f"{value:.4g}"
     return "" if value is None else str(value)
+
+
+def _short_ratio(value: Any) -> str:
+    """SI or SLF in :data:`N_RATIO_DIGITS` significant digits (a narrow column)."""
+    if isinstance(value, float) and math.isfinite(value) and value != 0 and 1e-3 <= abs(value) < 1e5:
+        return f"{value:.{N_RATIO_DIGITS}g}"
+    return fmt(value)
 
 
 def make_table(columns: list[str]) -> QTableWidget:
@@ -85,6 +106,7 @@ _table, _fill = make_table, fill_table
 
 class ResultsPanel(QWidget):
     suspect_chosen = Signal(str, str)   # view name, shaft name ("" when none)
+    component_chosen = Signal(str, str)   # the chosen suspect's component ("bearing:NAME", ...) and kind
     sideband_chosen = Signal(float, float, str)   # carrier Hz, spacing Hz, owner shaft ("" when none)
 
     def __init__(self, parent: QWidget | None = None):
@@ -92,8 +114,21 @@ class ResultsPanel(QWidget):
         layout = QVBoxLayout(self)
         layout.setContentsMargins(4, 4, 4, 4)
         self.overall = _table(["indicator", "value"])
-        self.tsa = _table(["shaft", "revs"] + list(TSA_KEYS))
+        info = {i.key: i for i in TSA_INDICATORS}
+        self.tsa = _table(["shaft"] + [info[k].label if k in info else k for k in TSA_COLUMNS] + ["revs"])
+        for c, key in enumerate(TSA_COLUMNS, 1):
+            if key in info:
+                healthy = f" (healthy: about {info[key].healthy:g})" if info[key].healthy is not None else ""
+                self.tsa.horizontalHeaderItem(c).setToolTip(info[key].meaning + healthy)
+        self.tsa.horizontalHeaderItem(len(TSA_COLUMNS) + 1).setToolTip("revolutions averaged")
         self.sidebands = _table([text for _, text in SIDEBAND_COLUMNS])
+        for table in (self.tsa, self.sidebands):
+            # columns as wide as their contents: a stretched last column keeps the width of a wider
+            # dock after it narrows, and pushes the key columns out of view
+            table.horizontalHeader().setStretchLastSection(False)
+        for c, (key, _) in enumerate(SIDEBAND_COLUMNS):
+            self.sidebands.horizontalHeaderItem(c).setToolTip(SIDEBAND_TIPS[key])
+
         self.sidebands.setToolTip("Choose a row to put the sideband cursor on that family in the spectrum")
         self.sidebands.cellClicked.connect(self._on_sideband)
         self._families: list[Any] = []
@@ -129,23 +164,30 @@ class ResultsPanel(QWidget):
         _fill(self.overall, [[text, fmt(overall[key])] for key, text in OVERALL_KEYS if key in overall])
         rows, colours = [], []
         for item in analysis.tsa:
-            rows.append([item.shaft, str(item.n_revs)] + [fmt(item.indicators.get(k)) for k in TSA_KEYS])
+            rows.append([item.shaft] + [fmt(item.indicators.get(k)) for k in TSA_COLUMNS] + [str(item.n_revs)])
             colours.append(theme.shaft_colour(self.model, item.shaft))
         _fill(self.tsa, rows, colours)
         self._families = list(analysis.sidebands)
-        rows = [[fmt(_sideband_value(family, key)) for key, _ in SIDEBAND_COLUMNS] for family in analysis.sidebands]
+        rows = [[_short_ratio(_sideband_value(family, key)) if key in ("sideband_index", "sideband_level_factor")
+                 else fmt(_sideband_value(family, key)) for key, _ in SIDEBAND_COLUMNS] for family in analysis.sidebands]
         _fill(self.sidebands, rows, [theme.shaft_colour(self.model, getattr(f, "owner_shaft", None))
-                                     for f in analysis.sidebands], colour_column=3)
+                                     for f in analysis.sidebands], colour_column=OWNER_COLUMN)
         for r, family in enumerate(analysis.sidebands):
             evidence = getattr(family, "evidence", ()) or ()
+            facts = (f"{_sideband_value(family, 'carrier')} GMF at {fmt(getattr(family, 'carrier_hz', None))} Hz, "
+                     f"{fmt(getattr(family, 'n_found', None))} sidebands {fmt(getattr(family, 'spacing_hz', None))} Hz "
+                     f"apart; owner {family.owner_shaft or 'none'} (score {fmt(_sideband_value(family, 'owner_score'))});"
+                     f" SI {fmt(getattr(family, 'sideband_index', None))},"
+                     f" SLF {fmt(getattr(family, 'sideband_level_factor', None))}")
             for c in range(self.sidebands.columnCount()):
-                self.sidebands.item(r, c).setToolTip("\n".join(evidence))
+                self.sidebands.item(r, c).setToolTip("\n".join((facts, *evidence)))
         self.suspects.clear()
         for rank, suspect in enumerate(analysis.suspects, 1):
             evidence = "\n".join(f"  • {line}" for line in getattr(suspect, "evidence", ()) or ())
             text = f"{rank}. {suspect.component}: {suspect.kind} (score {suspect.score:.2f})"
             item = QListWidgetItem(text + ("\n" + evidence if evidence else ""))
-            item.setData(Qt.ItemDataRole.UserRole, (getattr(suspect, "view", "") or "", self.shaft_of(suspect.component)))
+            item.setData(Qt.ItemDataRole.UserRole, (getattr(suspect, "view", "") or "", self.shaft_of(suspect.component),
+                                                    str(suspect.component), str(suspect.kind)))
             item.setToolTip(f"Show the {getattr(suspect, 'view', '') or 'best'} view for {suspect.component}")
             self.suspects.addItem(item)
         self.empty_suspects.setText(
@@ -171,5 +213,6 @@ class ResultsPanel(QWidget):
             self.sideband_chosen.emit(float(family.carrier_hz), float(family.spacing_hz), family.owner_shaft or "")
 
     def _on_suspect(self, item: QListWidgetItem) -> None:
-        view, shaft = item.data(Qt.ItemDataRole.UserRole)
+        view, shaft, component, kind = item.data(Qt.ItemDataRole.UserRole)
+        self.component_chosen.emit(component, kind)   # before the view is shown, so it draws with it
         self.suspect_chosen.emit(view, shaft)

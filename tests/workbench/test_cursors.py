@@ -341,6 +341,7 @@ def test_window_sideband_row_puts_the_cursor_on_the_family(qtbot, tmp_path, sim_
         saved = [c for c in window.session.cursors if c["view"] == "spectrum"]
         assert saved[-1]["spacing"] == pytest.approx(family.spacing_hz)
         # orders of the selected (tach) shaft: GMF at 40 orders, output spacing 40/15 (domain reference 1.1)
+        window.choose_shaft(analysis.speed.shaft)   # the window first shows the top suspect's shaft
         window.session.set_view_options(spectrum_x="order")
         cursor = view.cursor_set.active
         assert cursor.centre == pytest.approx(40.0, rel=1e-3) and cursor.spacing == pytest.approx(40 / 15, rel=1e-3)

@@ -117,7 +117,8 @@ def test_family_switches(plot, train, qtbot):
     assert [label.property("shaft") for label in legend.shaft_labels] == ["input", "output"]
     assert "output" in legend.shaft_labels[1].text()
     assert theme.SHAFT_COLOURS[1] in legend.shaft_labels[1].text()  # the swatch has the shaft's colour
-    assert legend.menu_button.text() == "Model lines (2 of 5)"  # mesh harmonics and bearings
+    assert legend.menu_button.text() == "Lines 2/5"  # mesh harmonics and bearings
+    assert "mesh harmonics, bearings" in legend.menu_button.toolTip()  # the long form is the tooltip
     with pytest.raises(ValueError, match="Invalid value for 'family'"):
         overlay.set_family_visible("gears", True)
 

@@ -60,8 +60,10 @@ def table_row(window, label):
 def test_demo_opens_with_every_view_drawn(qtbot, window):
     analysis = open_demo(qtbot, window)
     assert {name: view.has_data() for name, view in window.views.items()} == dict.fromkeys(window.views, True)  # design.md: every view shows the analysis
-    assert window.session.selected_shaft == "input"          # the tach shaft comes first
-    assert window.shaft_combo.currentText() == "input"  # common practice, no source
+    # the window opens on the top suspect's shaft: demo 03 is a broken tooth of the intermediate wheel (demo README)
+    assert window.session.selected_shaft == "intermediate"  # demo_recordings/README.md, 03: suspect shaft:intermediate
+    assert window.shaft_combo.currentText() == "intermediate"  # common practice, no source
+    window.shaft_combo.setCurrentText("input")              # the analyst picks the tach shaft
     # GMF = Z x shaft rate (domain reference 1.1): 23 teeth on the input shaft
     input_hz = table_row(window, "input shaft").hz
     assert table_row(window, "stage 1 GMF").hz == pytest.approx(23 * input_hz, rel=1e-9)  # GMF = Z x f_shaft, domain reference 1.1
@@ -104,6 +106,7 @@ def test_switching_shaft_changes_the_tsa(qtbot, window):
     tsa = window.views["tsa"]
     window.session.set_current_view("tsa")
     assert window.tabs.currentWidget() is tsa  # common practice, no source
+    window.shaft_combo.setCurrentText("input")                           # the analyst picks the tach shaft
     ticks_in = tsa.tooth_ticks()
     revs_in = analysis.tsa_for("input").n_revs
     assert [teeth for _, teeth, _ in ticks_in] == [23]  # gears_on_shaft: the 23-tooth driver of stage 1 (demo model)

@@ -38,7 +38,8 @@ def add_arguments(parser) -> None:
     parser.add_argument("--model", metavar="M", help="model file (default: the .toml with the same name beside the recording)")
     parser.add_argument("--screenshot", metavar="PATH", help="save the window as PNG when every view is drawn, then exit")
     parser.add_argument("--view", choices=VIEWS, help="view to show first")
-    parser.add_argument("--shaft", metavar="NAME", help="shaft to select first (default: the shaft the tach watches)")
+    parser.add_argument("--shaft", metavar="NAME",
+                        help="shaft to select first (default: the top suspect's shaft, else the shaft the tach watches)")
     parser.add_argument("--size", metavar="WxH", help="window size in pixels (default 1600x1000, or the screen's "
                         "free area when smaller; a --screenshot is always 1600x1000 unless --size is given)")
     parser.add_argument("--timing", action="store_true", help=argparse.SUPPRESS)
@@ -166,7 +167,7 @@ def run(args) -> int:
             if args.shaft not in names:
                 finish(2, f"--shaft {args.shaft!r} is not a shaft of the model; choose one of: {', '.join(names)}")
                 return
-            window.session.select_shaft(args.shaft)
+            window.choose_shaft(args.shaft)   # the analyst's choice: not moved to the top suspect
 
     def shown(_analysis) -> None:
         timer.mark("analysis_done")

@@ -19,6 +19,9 @@ from workbench.cursors import attach_to_view, show_on_view
 from workbench.views.base import AnalysisView
 
 BEARING_KEYS = (("bpfo_hz", "BPFO"), ("bpfi_hz", "BPFI"), ("bsf_hz", "BSF"), ("ftf_hz", "FTF"))
+#: The defect frequency that each bearing suspect kind (dsp.suspects.KINDS) shows at.
+KIND_LINE = {"bearing outer race": "bpfo", "bearing inner race": "bpfi",
+             "bearing rolling element": "bsf", "bearing cage": "ftf"}
 
 
 class EnvelopeView(AnalysisView):
@@ -45,6 +48,22 @@ class EnvelopeView(AnalysisView):
         self.kurt_plot.addItem(self.best_box)
         self.kurt_widget.setVisible(False)
         self.kurtogram_box.toggled.connect(lambda on: self.session.set_view_options(show_kurtogram=on))
+        self.focus_bearing: str | None = None    # a bearing suspect: its defect lines are labelled
+        self.focus_kind: str = ""
+
+    def set_focus_bearing(self, name: str | None, kind: str = "") -> None:
+        """Label the defect lines and harmonics of bearing ``name`` (``None``: the selected shaft's lines).
+
+        ``kind`` is the suspect's kind (``"bearing outer race"``, ...): its line is labelled first.
+        """
+        wanted = (name, kind if name is not None else "")
+        if wanted == (self.focus_bearing, self.focus_kind):
+            return
+        self.focus_bearing, self.focus_kind = wanted
+        if self.analysis is not None and not self.isHidden():
+            self.refresh()
+        elif self.analysis is not None:
+            self._stale = True
 
     def data_items(self):
         return [self.curve]
@@ -69,16 +88,22 @@ class EnvelopeView(AnalysisView):
         squared = getattr(env, "squared", False)
         self.plot.setLabel("left", f"{'squared envelope' if squared else 'envelope'} ({units}{'²' if squared else ''})")
         shaft = self.session.selected_shaft
-        self.overlay.set_label_filter(shaft=shaft, max_harmonic=3)   # names for the selected shaft's lines
+        focus, first = self._focus_families()
+        # names for the selected shaft's lines, and every harmonic of a suspect bearing's lines
+        self.overlay.set_label_filter(shaft=shaft, max_harmonic=3, focus=focus, focus_first=first)
         self._show_model_lines(freq, amp, units + ("²" if squared else ""))
         top = self._top_frequency(shaft)
+        focus_top = self._focus_top_hz()
+        if focus_top and top:
+            top = max(top, focus_top)
         self.plot.setXRange(0, top if top else float(freq[-1]), padding=0)
         visible = amp[freq <= (top or freq[-1])][1:]
         if visible.size:
             self.plot.setYRange(0, float(visible.max()) * 1.3, padding=0)   # room for the line labels on top
         lo, hi = env.band_hz
         self.caption.setText(f"band {lo:.0f} to {hi:.0f} Hz, "
-                             + ("chosen by the kurtogram" if env.band_source == "kurtogram" else "chosen by you"))
+                             + ("chosen by the kurtogram" if env.band_source == "kurtogram" else "chosen by you")
+                             + (f"; labelled: bearing {self.focus_bearing} (suspect)" if focus else ""))
         self._draw_kurtogram(show)
 
     def _show_model_lines(self, freq, amp, units: str) -> None:
@@ -92,6 +117,26 @@ class EnvelopeView(AnalysisView):
             frac = speed_spread_frac(speed.min_hz, speed.mean_hz, speed.max_hz)
         show_on_view(self, table, freq, amp, axis="hz", scale=1.0, spread=spread, speed_spread_frac=frac,
                      units=units)
+
+    def _focus_families(self) -> tuple[str | None, str | None]:
+        """(family prefix, first family) of the focus bearing, or (None, None) when it is not in the model."""
+        table = getattr(self.analysis, "frequencies", None)
+        names = [b.name for b in getattr(table, "bearings", ()) or ()]
+        if self.focus_bearing is None or self.focus_bearing not in names:
+            return None, None
+        prefix = f"bearing:{self.focus_bearing}"
+        line = KIND_LINE.get(self.focus_kind)
+        return prefix, (f"{prefix} {line}" if line else None)
+
+    def _focus_top_hz(self) -> float | None:
+        """About 5.5 x the focus bearing's suspect frequency (its first five harmonics in view)."""
+        table = getattr(self.analysis, "frequencies", None)
+        for bearing in getattr(table, "bearings", ()) or ():
+            if bearing.name == self.focus_bearing:
+                key = KIND_LINE.get(self.focus_kind, "bpfo") + "_hz"
+                value = getattr(bearing, key, None)
+                return 5.5 * float(value) if value else None
+        return None
 
     def _top_frequency(self, shaft: str | None) -> float | None:
         """About 5x the highest frequency of interest of ``shaft``, so the fault lines are readable."""

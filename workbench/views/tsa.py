@@ -112,7 +112,11 @@ class TsaView(AnalysisView):
         bottom = lo - 0.05 * span - max(len(ticks), 1) * row
         self.plot.setYRange(bottom, hi + 0.05 * span, padding=0)
         self.plot.setXRange(0, 360 + (55 if ticks else 0), padding=0.01)
-        gears = ", ".join(f"<span style='color:{c}'>&#9646; {html.escape(str(name))}</span>"
-                          for (name, teeth, _), c in zip(ticks, colours))
-        self.caption.setText(f"{html.escape(str(shaft))}: <b>{item.n_revs} revolutions averaged</b>, "
-                             f"{item.samples_per_rev} samples per revolution" + (f"; tooth ticks: {gears}" if gears else ""))
+        # short enough to read fully at 1280 px; the long form is the caption's tooltip
+        gears = " ".join(f"<span style='color:{c}'>&#9646; {html.escape(str(name))}</span>"
+                         for (name, teeth, _), c in zip(ticks, colours))
+        self.caption.setText(f"{html.escape(str(shaft))}: <b>{item.n_revs} revolutions averaged</b>"
+                             + (f"; ticks: {gears}" if gears else ""))
+        self.caption.setToolTip(f"TSA of {shaft}: {item.n_revs} revolutions averaged, {item.samples_per_rev} samples "
+                                "per revolution; one tick per tooth of each gear on the shaft: "
+                                + ", ".join(f"{name} ({teeth} teeth)" for name, teeth, _ in ticks))
