@@ -121,6 +121,10 @@ def test_speed_view_without_a_tach_says_where_the_speed_came_from(qtbot, window)
     assert speed.legend_texts() == ["speed"]  # no repaired pulses, no legend entry for them
     text = window.banner.plain_text()
     assert ".;" not in text and ".." not in text and "stage 1" in text  # demo README, 07: the warning names the mesh
+    tsa = window.views["tsa"]
+    window.session.set_current_view("tsa")
+    assert "tooth numbers cannot be read" in tsa.caption.text()  # demo README, 07: the angle origin of the TSA is arbitrary
+    assert "origin arbitrary" in tsa.plot.getAxis("bottom").labelText  # demo README, 07
 
 
 def test_repaired_pulses_have_a_legend_entry_only_when_there_are_some(qtbot, window):

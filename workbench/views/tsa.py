@@ -92,7 +92,9 @@ class TsaView(AnalysisView):
         self.curve.setData(angle, y)
         units = self.sensor_units()
         self.plot.setLabel("left", f"{which} ({units})")
-        self.plot.setLabel("bottom", f"angle of {shaft} (deg)")
+        # without a once-per-revolution mark the angle origin is arbitrary: a tooth cannot be located
+        no_mark = getattr(getattr(self.analysis, "speed", None), "source", "tach") != "tach"
+        self.plot.setLabel("bottom", f"angle of {shaft} (deg" + (", origin arbitrary: no tach)" if no_mark else ")"))
         lo, hi = (float(y.min()), float(y.max())) if y.size else (-1.0, 1.0)
         span = (hi - lo) or 1.0
         ticks = self.tooth_ticks()
@@ -116,7 +118,9 @@ class TsaView(AnalysisView):
         gears = " ".join(f"<span style='color:{c}'>&#9646; {html.escape(str(name))}</span>"
                          for (name, teeth, _), c in zip(ticks, colours))
         self.caption.setText(f"{html.escape(str(shaft))}: <b>{item.n_revs} revolutions averaged</b>"
-                             + (f"; ticks: {gears}" if gears else ""))
+                             + (f"; ticks: {gears}" if gears else "")
+                             + ("<br><b>No tach: the angle origin is arbitrary, so tooth numbers cannot be read "
+                                "from this plot.</b>" if no_mark else ""))
         self.caption.setToolTip(f"TSA of {shaft}: {item.n_revs} revolutions averaged, {item.samples_per_rev} samples "
                                 "per revolution; one tick per tooth of each gear on the shaft: "
                                 + ", ".join(f"{name} ({teeth} teeth)" for name, teeth, _ in ticks))
