@@ -181,3 +181,18 @@ def test_controls_and_key_columns_read_fully(qtbot, tmp_path, size):
         assert tsa_header.sectionPosition(3) + tsa_header.sectionSize(3) <= window.results.tsa.viewport().width()  # in view
     finally:
         window.runner.shutdown()
+
+
+# ---------------------------------------------------------------- the cepstrum's rahmonics stand out
+def test_cepstrum_rahmonic_is_not_flattened_by_low_quefrencies(qtbot, window):
+    analysed(qtbot, window, lambda: window.open_recording(BROKEN))
+    cepstrum = window.views["cepstrum"]
+    window.session.set_current_view("cepstrum")
+    assert window.session.selected_shaft == "intermediate"  # demo README, 03
+    first_ms = cepstrum.rahmonics_ms()[0]
+    assert first_ms == pytest.approx(124.7, abs=0.1)  # demo README, 03: rahmonic at 124.7 ms (1 / 8.02 Hz)
+    q_ms, values = cepstrum.curve.getData()
+    near = np.abs(q_ms - first_ms) < 1.0
+    _, (y0, y1) = cepstrum.plot.getViewBox().viewRange()
+    peak = float(values[near].max())
+    assert y0 < peak <= y1 and peak >= 0.3 * y1, (peak, y1)  # the rahmonic reads as a peak, not a dot (common practice, no source)

@@ -15,6 +15,9 @@ from workbench.views.base import AnalysisView, place_mark
 
 N_RAHMONICS = 5
 MIN_QUEFRENCY_MS = 1.0
+#: The y scale is taken from this fraction of the first rahmonic's quefrency on: the large values at
+#: low quefrency (the spectrum's smooth shape) would otherwise flatten the rahmonics into the noise.
+Y_FROM_RAHMONIC = 0.25
 
 
 class CepstrumView(AnalysisView):
@@ -63,13 +66,15 @@ class CepstrumView(AnalysisView):
                            pg.mkPen(colour, width=1, style=pg.QtCore.Qt.PenStyle.DashLine))
             else:
                 line.setVisible(False)
-        # the first millisecond holds the smooth spectral envelope: leave it out of the y scale
+        # low quefrencies hold the smooth spectral envelope: leave them out of the y scale
         top_ms = min(q_ms[-1], 1.5 * float(marks[-1])) if marks.size else q_ms[-1]
-        visible = values[(q_ms >= MIN_QUEFRENCY_MS) & (q_ms <= top_ms)]
+        start_ms = max(MIN_QUEFRENCY_MS, Y_FROM_RAHMONIC * float(marks[0])) if marks.size else MIN_QUEFRENCY_MS
+        visible = values[(q_ms >= start_ms) & (q_ms <= top_ms)]
         self.plot.setXRange(0, top_ms, padding=0)
         if visible.size:
             lo, hi = float(visible.min()), float(visible.max())
-            pad = 0.1 * ((hi - lo) or 1.0)
+            pad = 0.15 * ((hi - lo) or 1.0)   # room for the rahmonic labels
             self.plot.setYRange(lo - pad, hi + pad, padding=0)
         rate = self.shaft_rate_hz(shaft)
-        self.caption.setText(f"{shaft}: {rate:.2f} Hz, rahmonic spacing {1000.0 / rate:.1f} ms" if rate else "")
+        self.caption.setText(f"{shaft}: {rate:.2f} Hz, rahmonic spacing {1000.0 / rate:.1f} ms"
+                             f" (y scale from {start_ms:.0f} ms)" if rate else "")
