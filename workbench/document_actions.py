@@ -215,6 +215,7 @@ class DocumentActions(QObject):
             s.set_settings(doc.settings)
             if doc.selected_shaft is not None and s.model is not None and doc.selected_shaft in s.model.shaft_names():
                 s.select_shaft(doc.selected_shaft)
+                w.shaft_chosen = True   # the saved shaft is the analyst's choice: the top suspect does not replace it
             s.set_view_options(**{f: getattr(doc.view_options, f) for f in doc.view_options.__dataclass_fields__})
             s.set_current_view(doc.current_view)
             s.set_cursors(doc.cursors)

@@ -196,3 +196,18 @@ def test_cepstrum_rahmonic_is_not_flattened_by_low_quefrencies(qtbot, window):
     _, (y0, y1) = cepstrum.plot.getViewBox().viewRange()
     peak = float(values[near].max())
     assert y0 < peak <= y1 and peak >= 0.3 * y1, (peak, y1)  # the rahmonic reads as a peak, not a dot (common practice, no source)
+
+
+def test_a_saved_shaft_choice_survives_opening_the_session(qtbot, window, tmp_path):
+    analysed(qtbot, window, lambda: window.open_recording(BROKEN))
+    window.shaft_combo.setCurrentText("input")               # the analyst's choice, saved with the session
+    saved = window.document.save_session(tmp_path / "work.json")
+    theme.configure_pyqtgraph()
+    other = MainWindow(settings_store=QSettings(str(tmp_path / "other.ini"), QSettings.Format.IniFormat))
+    qtbot.addWidget(other)
+    other.show()
+    try:
+        analysed(qtbot, other, lambda: other.document.open_session(saved))
+        assert other.session.selected_shaft == "input"  # never override a choice the analyst made (review defect 4)
+    finally:
+        other.runner.shutdown()
