@@ -27,7 +27,7 @@ from workbench.banner import Banner, join_sentences
 from workbench.file_menu import MODEL_SUFFIXES, N_RECENT, RECORDING_SUFFIXES, FileMenu  # noqa: F401 - importable here
 from workbench.jobs import AnalysisRunner
 from workbench.results_panel import ResultsPanel
-from workbench.session import VIEW_NAMES, Session
+from workbench.session import VIEW_NAMES, Session, default_spectrum_span_hz
 from workbench.views import VIEW_CLASSES, view_class
 
 log = logging.getLogger(__name__)
@@ -105,6 +105,8 @@ class MainWindow(FileMenu, QMainWindow):
         self._auto_selecting = False
         self._default_shaft: str | None = None
         self.focus_chosen = False
+        # each recording's spectrum opens on the mesh band once (workbench.session.default_spectrum_span_hz)
+        self.span_shown = False
         self._build_central()
         self._build_docks()
         self._build_status()
@@ -266,7 +268,7 @@ class MainWindow(FileMenu, QMainWindow):
         self.analysis, self.recording, self.last_error = None, None, None
         if not loading:
             # another recording: its top suspect's shaft is shown until the analyst chooses one
-            self.shaft_chosen = self.focus_chosen = False
+            self.shaft_chosen = self.focus_chosen = self.span_shown = False
             self.views["envelope"].set_focus_bearing(None)
         for view in self.views.values():
             view.clear()
@@ -431,6 +433,11 @@ class MainWindow(FileMenu, QMainWindow):
         if self.form is not None:
             self.form.set_n_channels(self.recording.n_channels)
         self._follow_top_suspect(self.analysis)
+        if not self.span_shown:
+            self.span_shown = True
+            span = default_spectrum_span_hz(self.analysis)
+            if span is not None and self.session.view_options.spectrum_zoom_hz is None:
+                self.session.set_view_options(spectrum_zoom_hz=span)
         for view in self.views.values():
             view.show_analysis(self.analysis, self.recording)
         self.results.show_analysis(self.analysis)

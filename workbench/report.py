@@ -56,7 +56,6 @@ CAUTIONS = (
 SUSPECTS_LABEL = "an aid to the analyst's judgement, not a verdict"
 DEFAULT_VIEWS = ("spectrum", "tsa", "envelope")
 DEFAULT_SIZE_PX = (1000, 520)
-MESH_SPAN = 3.5          # the default spectrum picture reaches this many times the highest mesh frequency
 
 #: One line on what each overall indicator means (common practice; sources in the text).
 OVERALL_MEANINGS = {
@@ -142,18 +141,15 @@ def most_suspect_shaft(analysis: Any) -> str | None:
 def default_images(analysis: Any, recording: Any = None, *, size_px: tuple[int, int] = DEFAULT_SIZE_PX) -> list[ReportImage]:
     """The default pictures drawn headlessly: spectrum, TSA of the most suspect shaft, envelope."""
     from workbench import snapshot
-    from workbench.session import Session
+    from workbench.session import MESH_SPAN, Session, default_spectrum_span_hz
 
     shaft = most_suspect_shaft(analysis)
     session = Session(model=analysis.model, settings=analysis.settings)
     session.selected_shaft = shaft
-    table = analysis.frequencies
-    meshes_hz = [m.gmf_hz for m in getattr(table, "meshes", ()) or ()]
-    meshes_hz += [p.mesh_hz for p in getattr(table, "planetary", ()) or ()]
-    top_hz = MESH_SPAN * max(meshes_hz) if meshes_hz else None
-    nyquist_hz = 0.5 * float(analysis.recording.get("sample_rate_hz", 0.0) or 0.0)
-    if top_hz is not None and (not nyquist_hz or top_hz < nyquist_hz):
-        session.set_view_options(spectrum_zoom_hz=(0.0, top_hz))
+    span = default_spectrum_span_hz(analysis)
+    top_hz = span[1] if span else None
+    if span is not None:
+        session.set_view_options(spectrum_zoom_hz=span)
     captions = {
         "spectrum": ("Amplitude spectrum" + (f" up to {top_hz:.0f} Hz ({MESH_SPAN:g} x the highest gear mesh "
                                              "frequency)" if session.view_options.spectrum_zoom_hz else "")

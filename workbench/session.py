@@ -331,3 +331,26 @@ def _model_from_dict(data: dict[str, Any]) -> Any:
     from dsp.model import model_from_dict
 
     return model_from_dict(data)
+
+
+#: The default spectrum band reaches this many times the highest gear mesh frequency:
+#: the mesh harmonics the analysis measures (3 by default) and their sidebands.
+MESH_SPAN = 3.5
+
+
+def default_spectrum_span_hz(analysis: Any) -> tuple[float, float] | None:
+    """The spectrum band an analyst looks at first: 0 to MESH_SPAN x the highest mesh frequency.
+
+    None when the model has no mesh or that band reaches the Nyquist frequency anyway.
+    The window opens each recording's spectrum on it; the report's default picture uses it.
+    """
+    table = analysis.frequencies
+    meshes_hz = [m.gmf_hz for m in getattr(table, "meshes", ()) or ()]
+    meshes_hz += [p.mesh_hz for p in getattr(table, "planetary", ()) or ()]
+    if not meshes_hz:
+        return None
+    top_hz = MESH_SPAN * max(meshes_hz)
+    nyquist_hz = 0.5 * float(analysis.recording.get("sample_rate_hz", 0.0) or 0.0)
+    if nyquist_hz and top_hz >= nyquist_hz:
+        return None
+    return (0.0, top_hz)

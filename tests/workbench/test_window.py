@@ -376,3 +376,22 @@ def test_one_registry_of_views(window):
     assert snapshot.VIEW_CLASSES is VIEW_CLASSES
     assert [window.tabs.widget(i).name for i in range(window.tabs.count())] == list(VIEW_CLASSES)
     assert all(view_class(name).name == name for name in VIEW_CLASSES)
+
+
+def test_spectrum_opens_on_the_mesh_band_and_full_shows_everything(qtbot, window):
+    open_demo(qtbot, window)
+    spectrum = window.views["spectrum"]
+    gmf_hz = max(m.gmf_hz for m in window.analysis.frequencies.meshes)
+    (x0, x1), _ = spectrum.plot.getViewBox().viewRange()
+    # 3.5 x the highest mesh frequency shows its first three harmonics and their sidebands
+    # (common practice, no source)
+    assert (x0, x1) == pytest.approx((0.0, 3.5 * gmf_hz))
+    assert 3 * gmf_hz < x1
+    window.session.set_view_options(spectrum_zoom_hz=None)          # the "Full" button
+    (_, x1), _ = spectrum.plot.getViewBox().viewRange()
+    assert x1 == pytest.approx(window.analysis.spectrum.freq_hz[-1])
+    # an analyst's zoom survives a re-analysis of the same recording
+    window.session.set_view_options(spectrum_zoom_hz=(500.0, 650.0))
+    with qtbot.waitSignal(window.analysis_shown, timeout=TIMEOUT_MS):
+        window.run_analysis()
+    assert spectrum.plot.getViewBox().viewRange()[0] == pytest.approx([500.0, 650.0])
