@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import math
 import os
-import tempfile
 from dataclasses import MISSING as MISSING_DC, dataclass, field, fields
 from pathlib import Path
 from typing import Any
@@ -327,17 +326,6 @@ def dumps_model(train: GearTrain) -> str:
     return tomli_w.dumps(model_to_dict(train))
 
 
-def _file_mode(path: Path) -> int:
-    """Permission bits for a saved model: those of the file it replaces, else 0666 less the umask."""
-    try:
-        return path.stat().st_mode & 0o7777
-    except OSError:
-        pass
-    umask = os.umask(0o022)
-    os.umask(umask)
-    return 0o666 & ~umask
-
-
 def save_model(train: GearTrain, path: str | Path) -> None:
     """Write the model to ``path`` atomically.
 
@@ -346,23 +334,10 @@ def save_model(train: GearTrain, path: str | Path) -> None:
     either the old file or the new one, never half of one.  The model is not
     validated here (a half-finished model can be saved); see :func:`validate`.
     """
-    path = Path(path)
-    text = dumps_model(train)
-    mode = _file_mode(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent or ".")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as f:
-            f.write(text)
-            f.flush()
-            os.fsync(f.fileno())
-        os.chmod(tmp, mode)  # mkstemp makes 0600; a model file is an ordinary document
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
+    from .files import atomic_write_text
+
+    text = dumps_model(train)   # serialise first: a model that cannot be written leaves the file alone
+    atomic_write_text(path, text)
 
 
 # ---------------------------------------------------------------------------

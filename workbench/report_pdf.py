@@ -12,7 +12,7 @@ from pathlib import Path
 
 from workbench.report import ReportError, ReportInput
 from workbench.report_html import report_html
-from workbench.session_store import new_file_mode
+from dsp.files import atomic_path
 
 MARGIN_MM = 15.0
 RESOLUTION_DPI = 96
@@ -63,17 +63,12 @@ def write_pdf(inp: ReportInput, path: str | Path) -> PdfResult:
     The file is written beside the target under a temporary name and renamed when
     complete, so a failed print never leaves half a report under the real name.
     """
-    import os
-    import tempfile
-
     from PySide6.QtCore import QMarginsF, QSizeF
     from PySide6.QtGui import QPageLayout, QPageSize, QPdfWriter
 
     path = Path(path)
     doc, text = build_document(inp)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    os.close(fd)
-    try:
+    with atomic_path(path) as tmp:
         writer = QPdfWriter(tmp)
         writer.setResolution(RESOLUTION_DPI)
         writer.setPageSize(QPageSize(QPageSize.PageSizeId.A4))
@@ -85,14 +80,6 @@ def write_pdf(inp: ReportInput, path: str | Path) -> PdfResult:
         doc.print_(writer)
         n_pages = doc.pageCount()
         del writer   # finishes the file
-        os.chmod(tmp, new_file_mode(path))
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
     if not path.is_file() or path.stat().st_size == 0:
         raise ReportError(f"could not write {path}; check the folder is writable")
     return PdfResult(path=path, n_pages=n_pages, html=text)

@@ -32,7 +32,6 @@ import json
 import logging
 import math
 import os
-import tempfile
 import time
 from dataclasses import dataclass
 from pathlib import Path
@@ -98,64 +97,19 @@ class LoadedSession:
 
 # ---------------------------------------------------------------------- writing
 def atomic_write_text(path: str | Path, text: str) -> Path:
-    """Write ``text`` (UTF-8) to ``path`` atomically.
-
-    The temporary file is created in the target's folder (so :func:`os.replace` is
-    a rename on one file system), flushed and ``fsync``-ed before the rename; the
-    folder is ``fsync``-ed afterwards where the platform allows it.
+    """Write ``text`` (UTF-8) to ``path`` atomically (:func:`dsp.files.atomic_write_text`).
 
     Raises
     ------
     SessionFileError
         When the folder is missing or not writable (the old file, if any, is kept).
     """
-    path = Path(path)
-    folder = path.parent if str(path.parent) else Path(".")
+    from dsp import files
+
     try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
+        return files.atomic_write_text(path, text)
     except OSError as exc:
         raise SessionFileError(f"cannot write {path} ({exc.strerror}); choose a folder you can write to") from None
-    try:
-        os.chmod(tmp, new_file_mode(path))
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except OSError as exc:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise SessionFileError(f"cannot write {path} ({exc.strerror}); choose a folder you can write to") from None
-    _fsync_folder(folder)
-    return path
-
-
-def new_file_mode(path: str | Path) -> int:
-    """Permission bits for a file that replaces ``path``: its own when it exists, else 0o666 less the umask."""
-    try:
-        return Path(path).stat().st_mode & 0o777
-    except OSError:
-        pass
-    mask = os.umask(0o022)   # reading the umask means setting it; put it straight back
-    os.umask(mask)
-    return 0o666 & ~mask
-
-
-def _fsync_folder(folder: Path) -> None:
-    if not hasattr(os, "O_DIRECTORY"):
-        return   # Windows: folders cannot be opened for fsync
-    try:
-        fd = os.open(folder, os.O_RDONLY | os.O_DIRECTORY)
-    except OSError:
-        return
-    try:
-        os.fsync(fd)
-    except OSError:
-        pass
-    finally:
-        os.close(fd)
 
 
 def session_to_document(session: Any) -> dict[str, Any]:
