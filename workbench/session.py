@@ -27,6 +27,7 @@ SCHEMA = "gearbench.session/1"
 VIEW_NAMES = tuple(VIEW_CLASSES)          # one registry of views: workbench.views.VIEW_CLASSES
 SPECTRUM_X_UNITS = ("hz", "cpm", "order")
 SPECTRUM_Y_UNITS = ("g", "m/s2", "mm/s")
+SPECTRUM_LINES = ("fine", "averaged")     # full-record lines, or extras["averaged_spectrum"]
 TSA_SIGNALS = ("average", "residual", "difference")
 
 # Event kinds a subscriber may receive.
@@ -42,12 +43,14 @@ class ViewOptions:
     spectrum_units: str = "g"              # one of SPECTRUM_Y_UNITS
     spectrum_log_y: bool = True
     spectrum_zoom_hz: tuple[float, float] | None = None   # shown band, None: whole spectrum
+    spectrum_lines: str = "fine"           # one of SPECTRUM_LINES (Hz and CPM axes of an acceleration)
     tsa_signal: str = "average"            # one of TSA_SIGNALS
     show_kurtogram: bool = False
 
     def __post_init__(self) -> None:
         _check_choice("spectrum_x", self.spectrum_x, SPECTRUM_X_UNITS)
         _check_choice("spectrum_units", self.spectrum_units, SPECTRUM_Y_UNITS)
+        _check_choice("spectrum_lines", self.spectrum_lines, SPECTRUM_LINES)
         _check_choice("tsa_signal", self.tsa_signal, TSA_SIGNALS)
         if self.spectrum_zoom_hz is not None:
             lo, hi = (float(v) for v in self.spectrum_zoom_hz)

@@ -1,4 +1,11 @@
-"""Spectrum view: averaged amplitude spectrum with a choice of axis and units.
+"""Spectrum view: amplitude spectrum with a choice of lines, axis and units.
+
+Lines: "fine" draws the one-FFT spectrum of the whole record (the finest line
+spacing, for sidebands); "averaged" draws ``Analysis.extras["averaged_spectrum"]``,
+the same spectrum grouped into lines ``settings.spectrum_resolution_hz`` apart (a
+smoother noise floor for a full span).  The choice applies to the Hz and CPM axes of
+an acceleration; the order axis always shows the order spectrum and mm/s the
+velocity spectrum of the fine lines (there is no averaged velocity spectrum).
 
 x axis in Hz, cycles per minute (CPM) or orders of the selected shaft (the order
 spectrum from angular resampling when the amplitude is an acceleration, the
@@ -22,6 +29,10 @@ from workbench.views.base import AnalysisView, convert_acceleration, positive_fo
 
 X_CHOICES = (("hz", "Hz"), ("cpm", "CPM"), ("order", "orders"))
 Y_CHOICES = (("g", "g"), ("m/s2", "m/s²"), ("mm/s", "mm/s"))
+LINE_CHOICES = ("fine", "averaged")
+#: Sidebands ``s`` apart stay separate peaks on lines ``r`` apart while ``s >= MIN_LINES_PER_SPACING * r``
+#: (a line between two peaks to dip on).  Common practice, no source.
+MIN_LINES_PER_SPACING = 2.0
 
 
 class SpectrumView(AnalysisView):
@@ -37,6 +48,9 @@ class SpectrumView(AnalysisView):
         self.y_combo = QComboBox()
         for key, text in Y_CHOICES:
             self.y_combo.addItem(text, key)
+        self.lines_combo = QComboBox()
+        self.lines_combo.addItem("fine (full record)", "fine")
+        self.lines_combo.addItem("averaged", "averaged")
         self.log_box = QCheckBox("log amplitude")
         self.centre_spin = _spin("", " Hz", 0, 1e5, 1000)
         self.centre_spin.setToolTip("Centre of the zoom band")
@@ -51,7 +65,7 @@ class SpectrumView(AnalysisView):
         self.band_button.setToolTip("Show the orange region; drag it to the band to demodulate and the analysis re-runs")
         self.auto_band = QPushButton("Kurtogram band")
         self.auto_band.setToolTip("Let the kurtogram choose the envelope band again")
-        for text, widget in (("x axis", self.x_combo), ("amplitude", self.y_combo)):
+        for text, widget in (("lines", self.lines_combo), ("x axis", self.x_combo), ("amplitude", self.y_combo)):
             self.controls.addWidget(QLabel(text))
             self.controls.addWidget(widget)
         self.controls.addWidget(self.log_box)
@@ -77,10 +91,13 @@ class SpectrumView(AnalysisView):
         self.plot.addItem(self.band_region, ignoreBounds=True)
         self.band_region.sigRegionChangeFinished.connect(self._on_band_finished)
         attach_to_view(self)   # model lines, harmonic and sideband cursors, their readout (workbench.cursors)
+        # after the readout's own refresh (connected first): say when averaged lines merge the sidebands
+        self.cursor_set.updated.connect(self._note_merged_sidebands)
         self._updating = False
         self._sync_controls()
         self.x_combo.currentIndexChanged.connect(self._on_controls)
         self.y_combo.currentIndexChanged.connect(self._on_controls)
+        self.lines_combo.currentIndexChanged.connect(self._on_controls)
         self.log_box.toggled.connect(self._on_controls)
         zoom.clicked.connect(self._on_zoom)
         full.clicked.connect(lambda: self.session.set_view_options(spectrum_zoom_hz=None))
@@ -97,7 +114,48 @@ class SpectrumView(AnalysisView):
         self.x_combo.setCurrentIndex([k for k, _ in X_CHOICES].index(options.spectrum_x))
         self.y_combo.setCurrentIndex([k for k, _ in Y_CHOICES].index(options.spectrum_units))
         self.log_box.setChecked(options.spectrum_log_y)
+        self.lines_combo.setCurrentIndex(LINE_CHOICES.index(options.spectrum_lines))
+        self._sync_lines_combo()
         self._updating = False
+
+    def _sync_lines_combo(self) -> None:
+        """Name the averaged line spacing; grey the choice out where it does not apply, and say why."""
+        res = self._averaged_resolution_hz()
+        self.lines_combo.setItemText(1, "averaged" if res is None else f"averaged ({res:g} Hz)")
+        reason = self._lines_not_applicable()
+        self.lines_combo.setEnabled(reason is None)
+        spacing = "settings.spectrum_resolution_hz" if res is None else f"{res:g} Hz"
+        tip = (f"fine: one FFT of the whole record, every line (for sidebands); averaged: the same spectrum "
+               f"grouped into lines {spacing} apart (a smoother noise floor on a wide span). "
+               "The averaged lines apply to acceleration (g, m/s²) on the Hz and CPM axes.")
+        self.lines_combo.setToolTip(tip if reason is None else f"{tip} Not used now: {reason}.")
+
+    def _averaged_resolution_hz(self) -> float | None:
+        analysis = self.analysis
+        if analysis is None:
+            return None
+        return float(analysis.settings.spectrum_resolution_hz)
+
+    def _averaged(self):
+        """The analysis' averaged spectrum, or None."""
+        analysis = self.analysis
+        return None if analysis is None else (getattr(analysis, "extras", None) or {}).get("averaged_spectrum")
+
+    def _lines_not_applicable(self) -> str | None:
+        """Why the lines choice does not apply to what is shown (None: it applies)."""
+        options = self.session.view_options
+        if options.spectrum_units == "mm/s":
+            return "mm/s shows the velocity spectrum of the fine lines (no averaged velocity spectrum)"
+        if options.spectrum_x == "order" and self._order_spectrum_shown():
+            return "the order axis shows the order spectrum (from angular resampling)"
+        if self.analysis is not None and self._averaged() is None:
+            return "this analysis has no averaged spectrum"
+        return None
+
+    def _order_spectrum_shown(self) -> bool:
+        analysis = self.analysis
+        return (analysis is not None and getattr(analysis, "order_spectrum", None) is not None
+                and self.session.view_options.spectrum_x == "order" and self._scale_hz() not in (None, 1.0))
 
     def _on_event(self, event) -> None:
         if event.kind == "view_options":
@@ -110,7 +168,8 @@ class SpectrumView(AnalysisView):
             return
         self.session.set_view_options(spectrum_x=self.x_combo.currentData(),
                                       spectrum_units=self.y_combo.currentData(),
-                                      spectrum_log_y=self.log_box.isChecked())
+                                      spectrum_log_y=self.log_box.isChecked(),
+                                      spectrum_lines=self.lines_combo.currentData())
 
     def _on_zoom(self) -> None:
         centre, half = self.centre_spin.value(), self.span_spin.value()
@@ -162,15 +221,20 @@ class SpectrumView(AnalysisView):
             source = analysis.velocity_spectrum
             x = np.asarray(source.freq_hz) * scale
             y = np.asarray(source.amplitude, dtype=float)
-        elif options.spectrum_x == "order" and scale != 1.0 and getattr(analysis, "order_spectrum", None) is not None:
+        elif self._order_spectrum_shown():
             # order spectrum is in reference-shaft orders; shaft order = f_shaft / f_reference
             f_ref = self.shaft_rate_hz(analysis.frequencies.reference_shaft) or 1.0
             x = np.asarray(analysis.order_spectrum.order) * f_ref * scale
             y = convert_acceleration(np.asarray(analysis.order_spectrum.amplitude, dtype=float),
                                      self.sensor_units(), units)
         else:
-            x = np.asarray(analysis.spectrum.freq_hz) * scale
-            y = convert_acceleration(np.asarray(analysis.spectrum.amplitude, dtype=float), self.sensor_units(), units)
+            source = analysis.spectrum
+            if options.spectrum_lines == "averaged" and self._averaged() is not None:
+                source = self._averaged()
+            x = np.asarray(source.freq_hz) * scale
+            y = convert_acceleration(np.asarray(source.amplitude, dtype=float), self.sensor_units(), units)
+        self._sync_lines_combo()
+        averaged_shown = options.spectrum_lines == "averaged" and self._lines_not_applicable() is None
         self.plot.setLogMode(x=False, y=options.spectrum_log_y)
         self.curve.setData(x, positive_for_log(y) if options.spectrum_log_y else y)
         scaling = getattr(analysis.settings, "spectrum_scaling", "peak")
@@ -187,8 +251,58 @@ class SpectrumView(AnalysisView):
         if self.band_region.isVisible():
             self._place_band_region()
         band = getattr(analysis.envelope, "band_hz", None)
-        self.caption.setText("" if band is None else
-                             f"envelope band {band[0]:.0f} to {band[1]:.0f} Hz ({analysis.envelope.band_source})")
+        parts = [] if band is None else [f"envelope band {band[0]:.0f} to {band[1]:.0f} Hz "
+                                         f"({analysis.envelope.band_source})"]
+        if averaged_shown:
+            parts.append(self._averaged_caption())
+        elif options.spectrum_lines == "averaged":
+            parts.append(f"fine lines: {self._lines_not_applicable()}")
+        self.caption.setText("; ".join(parts))
+
+    def merged_shafts(self) -> list[str]:
+        """Shafts whose sidebands the averaged lines cannot separate (empty when fine lines are drawn).
+
+        A sideband family ``f_shaft`` apart needs lines at most ``f_shaft / MIN_LINES_PER_SPACING``
+        apart to show separate peaks.
+        """
+        analysis = self.analysis
+        options = self.session.view_options
+        if analysis is None or options.spectrum_lines != "averaged" or self._lines_not_applicable() is not None:
+            return []
+        line_hz = _line_spacing_hz(self._averaged())
+        return [s.name for s in analysis.frequencies.shafts if s.hz < MIN_LINES_PER_SPACING * line_hz]
+
+    def sidebands_merged(self, cursor=None) -> bool:
+        """True when averaged lines are drawn and the sideband ``cursor`` (default: the active one)
+        is spaced closer than ``MIN_LINES_PER_SPACING`` of those lines, so its sidebands merge."""
+        cursor = self.cursor_set.active if cursor is None else cursor
+        if getattr(cursor, "kind", None) != "sideband" or cursor.data is None:
+            return False
+        options = self.session.view_options
+        if options.spectrum_lines != "averaged" or self._lines_not_applicable() is not None:
+            return False
+        return cursor.spacing < MIN_LINES_PER_SPACING * cursor.data.bin_width * (1.0 - 1e-9)
+
+    def _note_merged_sidebands(self, *_args) -> None:
+        """Replace the readout's shaft naming when the averaged lines cannot separate the sidebands."""
+        cursor = self.cursor_set.active
+        if not self.sidebands_merged(cursor):
+            return
+        d = cursor.data
+        unit = {"hz": "Hz", "cpm": "CPM", "order": "orders"}.get(d.axis, "")
+        self.cursor_readout.summary.setText(
+            f"sideband cursor: spacing {cursor.spacing:.5g} {unit} is less than {MIN_LINES_PER_SPACING:g} averaged "
+            f"lines ({d.bin_width:.5g} {unit} apart): the sidebands merge on these lines, so no shaft is named; "
+            "choose fine lines to read them")
+
+    def _averaged_caption(self) -> str:
+        line_hz = _line_spacing_hz(self._averaged())
+        text = f"averaged lines {line_hz:g} Hz apart"
+        merged = self.merged_shafts()
+        if merged:
+            text += (f"; sidebands of {', '.join(merged)} (rate below {MIN_LINES_PER_SPACING * line_hz:g} Hz) "
+                     "merge on these lines: choose fine lines to read them")
+        return text
 
     def _show_model_lines(self, x, y, scale: float, unit_text: str, *, exact_orders: bool) -> None:
         """Overlays and cursor data for the curve just drawn (nothing recomputed)."""
@@ -216,6 +330,11 @@ class SpectrumView(AnalysisView):
             self._updating = True
             self.band_region.setRegion((band[0] * scale, band[1] * scale))
             self._updating = False
+
+
+def _line_spacing_hz(spectrum) -> float:
+    f = np.asarray(spectrum.freq_hz)
+    return float(f[-1] - f[0]) / (f.size - 1) if f.size > 1 else float("nan")
 
 
 def _spin(prefix: str, suffix: str, lo: float, hi: float, value: float) -> QDoubleSpinBox:
