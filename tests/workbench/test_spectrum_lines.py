@@ -178,6 +178,30 @@ def test_sideband_cursor_names_the_intermediate_shaft_on_averaged_lines(qtbot, d
     assert len(first) == 2 and all(r.peak_amplitude > 10.0 * floor for r in first)
 
 
+def test_peak_amplitude_on_averaged_lines_is_the_tone_amplitude(qtbot, demo):
+    recording, model, analysis = demo
+    session = Session(recording_path=DEMO, model=model)
+    session.set_view_options(spectrum_lines="averaged", spectrum_log_y=False)
+    view = shown(qtbot, session, analysis, recording)
+    # the stage 1 GMF tone from the fine lines by Parseval: sqrt(sum A^2 / ENBW), Hann ENBW = 1.5 lines
+    # (Harris 1978, Table I)
+    f = np.asarray(analysis.spectrum.freq_hz)
+    a = np.asarray(analysis.spectrum.amplitude, dtype=float)
+    near = np.abs(f - STAGE1_GMF_HZ) < 1.0
+    tone = float(np.sqrt(np.sum(a[near] ** 2) / 1.5))
+    cursor = view.cursor_set.add_sideband(STAGE1_GMF_HZ, INTERMEDIATE_HZ)
+    carrier = view.cursor_readout.rows_text()[3]
+    assert carrier[0] == "carrier"
+    # 569.25 Hz is the edge between the 569.0 and 569.5 Hz lines: each holds half the tone's power
+    # (Parseval; dsp.spectrum.band_spectrum groups lines +- 0.25 Hz)
+    assert float(carrier[2]) == pytest.approx(tone / np.sqrt(2.0), rel=0.02)
+    assert float(carrier[4]) == pytest.approx(tone, rel=0.02)
+    info = view.cursor_set.read_peak(STAGE1_GMF_HZ)
+    assert info is not None
+    assert f"amplitude {float(carrier[4]):.5g} " in view.cursor_readout.peak_label.text()
+    assert cursor.readout().extra["owner"] == "intermediate"
+
+
 def test_averaged_lines_coarser_than_the_spacing_say_the_sidebands_merge(qtbot, demo, coarse):
     recording, model, _ = demo
     session = Session(recording_path=DEMO, model=model)

@@ -51,6 +51,8 @@ class SpectrumView(AnalysisView):
         self.lines_combo = QComboBox()
         self.lines_combo.addItem("fine (full record)", "fine")
         self.lines_combo.addItem("averaged", "averaged")
+        # the item text gains the line spacing once an analysis is shown: let the box grow to it
+        self.lines_combo.setSizeAdjustPolicy(QComboBox.SizeAdjustPolicy.AdjustToContents)
         self.log_box = QCheckBox("log amplitude")
         self.centre_spin = _spin("", " Hz", 0, 1e5, 1000)
         self.centre_spin.setToolTip("Centre of the zoom band")
@@ -91,8 +93,8 @@ class SpectrumView(AnalysisView):
         self.plot.addItem(self.band_region, ignoreBounds=True)
         self.band_region.sigRegionChangeFinished.connect(self._on_band_finished)
         attach_to_view(self)   # model lines, harmonic and sideband cursors, their readout (workbench.cursors)
-        # after the readout's own refresh (connected first): say when averaged lines merge the sidebands
-        self.cursor_set.updated.connect(self._note_merged_sidebands)
+        # after the readout's own refresh (connected first): averaged-line peak amplitudes and merged sidebands
+        self.cursor_set.updated.connect(self._adjust_readout)
         self._updating = False
         self._sync_controls()
         self.x_combo.currentIndexChanged.connect(self._on_controls)
@@ -127,7 +129,8 @@ class SpectrumView(AnalysisView):
         spacing = "settings.spectrum_resolution_hz" if res is None else f"{res:g} Hz"
         tip = (f"fine: one FFT of the whole record, every line (for sidebands); averaged: the same spectrum "
                f"grouped into lines {spacing} apart (a smoother noise floor on a wide span). "
-               "The averaged lines apply to acceleration (g, m/s²) on the Hz and CPM axes.")
+               "The averaged lines apply to acceleration (g, m/s²) on the Hz and CPM axes. A tone on the edge "
+               "of two averaged lines reads on both (each down to -3 dB); the peak readout adds their powers.")
         self.lines_combo.setToolTip(tip if reason is None else f"{tip} Not used now: {reason}.")
 
     def _averaged_resolution_hz(self) -> float | None:
@@ -234,7 +237,7 @@ class SpectrumView(AnalysisView):
             x = np.asarray(source.freq_hz) * scale
             y = convert_acceleration(np.asarray(source.amplitude, dtype=float), self.sensor_units(), units)
         self._sync_lines_combo()
-        averaged_shown = options.spectrum_lines == "averaged" and self._lines_not_applicable() is None
+        on_averaged = self.averaged_shown()
         self.plot.setLogMode(x=False, y=options.spectrum_log_y)
         self.curve.setData(x, positive_for_log(y) if options.spectrum_log_y else y)
         scaling = getattr(analysis.settings, "spectrum_scaling", "peak")
@@ -253,7 +256,7 @@ class SpectrumView(AnalysisView):
         band = getattr(analysis.envelope, "band_hz", None)
         parts = [] if band is None else [f"envelope band {band[0]:.0f} to {band[1]:.0f} Hz "
                                          f"({analysis.envelope.band_source})"]
-        if averaged_shown:
+        if on_averaged:
             parts.append(self._averaged_caption())
         elif options.spectrum_lines == "averaged":
             parts.append(f"fine lines: {self._lines_not_applicable()}")
@@ -283,9 +286,29 @@ class SpectrumView(AnalysisView):
             return False
         return cursor.spacing < MIN_LINES_PER_SPACING * cursor.data.bin_width * (1.0 - 1e-9)
 
-    def _note_merged_sidebands(self, *_args) -> None:
-        """Replace the readout's shaft naming when the averaged lines cannot separate the sidebands."""
+    def averaged_shown(self) -> bool:
+        """True when the curve drawn is the averaged spectrum."""
+        return (self.analysis is not None and self.session.view_options.spectrum_lines == "averaged"
+                and self._lines_not_applicable() is None)
+
+    def _adjust_readout(self, *_args) -> None:
+        """On averaged lines: peak amplitudes by band power (see :func:`band_peak_amplitude`), and no
+        shaft named for a sideband cursor whose sidebands those lines merge."""
+        if not self.averaged_shown():
+            return
+        d = self.cursor_set.data
+        readout = self.cursor_readout
+        peak = self.cursor_set.last_peak
+        if peak is not None and d is not None:
+            old = f"amplitude {_fmt(peak.amplitude)} "
+            new = f"amplitude {_fmt(band_peak_amplitude(d.x, d.amplitude, peak.position))} "
+            readout.peak_label.setText(readout.peak_label.text().replace(old, new, 1))
         cursor = self.cursor_set.active
+        if cursor is not None and cursor.data is not None:
+            for r, row in enumerate(cursor.readout().rows):
+                item = readout.table.item(r, 4)
+                if item is not None:
+                    item.setText(_fmt(band_peak_amplitude(d.x, d.amplitude, row.peak_position)))
         if not self.sidebands_merged(cursor):
             return
         d = cursor.data
@@ -330,6 +353,56 @@ class SpectrumView(AnalysisView):
             self._updating = True
             self.band_region.setRegion((band[0] * scale, band[1] * scale))
             self._updating = False
+
+
+def band_peak_amplitude(x, amplitude, position: float) -> float:
+    """Amplitude of a tone read on band-averaged lines: the power sum of its line and the larger neighbour.
+
+    Each averaged line holds the RMS of its band (``dsp.spectrum.band_spectrum``), so
+    a tone's power lands in one line, or is split between two adjacent lines when
+    it sits near their common edge (each then reads down to ``1/sqrt(2)`` of the
+    tone, -3 dB).  The root of the summed squares of the peak line and its larger
+    neighbour gives the tone's amplitude in both cases (Parseval's theorem), to
+    within the noise power of one line.  The log-parabola refinement used on
+    window-shaped peaks of the fine lines does not apply to these flat-topped bands.
+
+    Parameters
+    ----------
+    x : ndarray
+        Evenly spaced axis of the averaged lines (display units).
+    amplitude : ndarray
+        Amplitude per line (linear, peak or RMS scaling).
+    position : float
+        Where the peak was found (display units).
+
+    Returns
+    -------
+    float
+        Tone amplitude, in the units of ``amplitude``.
+
+    References
+    ----------
+    .. [1] A. V. Oppenheim and R. W. Schafer, *Discrete-Time Signal Processing*, 3rd ed.,
+       Pearson, 2010, Sec. 8.5 (Parseval's relation for the DFT).
+    """
+    x = np.asarray(x, dtype=float)
+    a = np.asarray(amplitude, dtype=float)
+    if a.size == 0 or not np.isfinite(position):
+        return float("nan")
+    i = int(np.clip(np.searchsorted(x, position), 1, a.size - 1))
+    i = i - 1 if abs(x[i - 1] - position) <= abs(x[i] - position) else i
+    lo, hi = max(i - 1, 0), min(i + 2, a.size)
+    k = lo + int(np.argmax(a[lo:hi]))           # the peak line next to the position
+    left = a[k - 1] if k > 0 else 0.0
+    right = a[k + 1] if k + 1 < a.size else 0.0
+    return float(np.hypot(a[k], max(left, right)))
+
+
+def _fmt(v: float) -> str:
+    """Numbers as the cursor readout writes them (workbench.cursor_items)."""
+    if not np.isfinite(v):
+        return "n/a"
+    return f"{v:.5g}" if abs(v) < 1e5 else f"{v:.6g}"
 
 
 def _line_spacing_hz(spectrum) -> float:
