@@ -11,7 +11,8 @@ Pure functions for the cursors and readouts of the workbench (no Qt here):
   sideband spacing;
 - :func:`explain_peak`: which model frequencies explain a peak, best first;
 - :func:`nearest_peak` and :func:`amplitude_at`: read a spectrum array at a
-  cursor without recomputing anything.
+  cursor without recomputing anything (FFT lines or band-averaged lines,
+  :func:`band_peak_amplitude`).
 
 Axes.  Every function works on the axis the caller shows.  Frequencies given to
 and returned by these functions are in *display units*: Hz times ``scale``.
@@ -460,8 +461,55 @@ def amplitude_at(freq_hz, amplitude, f0_hz):
     return float(a[i]) if np.ndim(i) == 0 else a[i].astype(float)
 
 
-def nearest_peak(freq_hz, amplitude, f0_hz: float, *, search_hz: float) -> tuple[float, float]:
-    """The largest local maximum within ``f0_hz +- search_hz``, refined by a parabola.
+#: Kinds of spectral lines :func:`nearest_peak` reads: ``"fft"`` lines of one windowed FFT (a
+#: tone is a window-shaped peak over a few lines) and ``"band"`` lines, each the RMS of a band
+#: of finer lines (a tone sits flat in one line or is split between two).
+LINES = ("fft", "band")
+
+
+def band_peak_amplitude(amplitude, index: int) -> float:
+    """Amplitude of a tone read on band-averaged lines: the power sum of its line and the larger neighbour.
+
+    Each band-averaged line holds the RMS of its band (``dsp.spectrum.band_spectrum``),
+    so a tone's power lands in one line, or is split between two adjacent lines when
+    it sits near their common edge (each then reads down to ``1/sqrt(2)`` of the
+    tone, -3 dB).  The root of the summed squares of the peak line and its larger
+    neighbour gives the tone's amplitude in both cases (Parseval's relation), to
+    within the noise power of one line.  The log-parabola refinement used on
+    window-shaped peaks of FFT lines does not apply to these flat-topped bands.
+
+    Parameters
+    ----------
+    amplitude : ndarray
+        Amplitude per line (linear, peak or RMS scaling), 1-D.
+    index : int
+        The peak line.
+
+    Returns
+    -------
+    float
+        ``sqrt(a[index]**2 + max(a[index - 1], a[index + 1])**2)`` (a missing
+        neighbour at either end counts as 0), in the units of ``amplitude``.
+
+    References
+    ----------
+    .. [1] A. V. Oppenheim and R. W. Schafer, *Discrete-Time Signal Processing*, 3rd ed.,
+       Pearson, 2010, Sec. 8.5 (Parseval's relation for the DFT).
+    """
+    a = np.asarray(amplitude)
+    if a.ndim != 1 or a.size < 1:
+        raise AnalysisError(f"amplitude must be a 1-D array of at least one line, got shape {a.shape}; "
+                            "pass the spectrum's amplitude")
+    k = int(index)
+    if not 0 <= k < a.size:
+        raise AnalysisError(f"index={index!r} is outside the {a.size} lines of the spectrum; pass a line index")
+    left = float(a[k - 1]) if k > 0 else 0.0
+    right = float(a[k + 1]) if k + 1 < a.size else 0.0
+    return float(math.hypot(float(a[k]), max(left, right)))
+
+
+def nearest_peak(freq_hz, amplitude, f0_hz: float, *, search_hz: float, lines: str = "fft") -> tuple[float, float]:
+    """The largest local maximum within ``f0_hz +- search_hz``, read as the kind of lines says.
 
     Parameters
     ----------
@@ -473,23 +521,35 @@ def nearest_peak(freq_hz, amplitude, f0_hz: float, *, search_hz: float) -> tuple
         Centre of the search.
     search_hz : float
         Half-width of the search (same units); at least the nearest line is used.
+    lines : {"fft", "band"}
+        ``"fft"``: lines of one windowed FFT; the peak is refined by a parabola
+        through the logarithms of three amplitudes ([1]_).  ``"band"``: band-averaged
+        lines (each the RMS of a band of finer lines); the peak is the line's
+        centre and its amplitude the power sum of the line and its larger
+        neighbour (:func:`band_peak_amplitude`, Parseval's relation [2]_), since a
+        tone near the edge of two bands is split between them.
 
     Returns
     -------
     (f, a) : tuple of float
         Frequency and amplitude of the peak: the largest local maximum in
         reach, or the largest line when the reach holds no local maximum
-        (a slope).  When that line is a local
+        (a slope).  With ``lines="fft"``, when that line is a local
         maximum with positive neighbours, a parabola through the logarithms of
         the three amplitudes gives the peak position and height ([1]_); else
-        the line itself is returned.
+        the line itself is returned.  With ``lines="band"``: the line's centre
+        and :func:`band_peak_amplitude` of that line.
 
     References
     ----------
     .. [1] J. O. Smith and X. Serra, "PARSHL: an analysis/synthesis program for
        non-harmonic sounds based on a sinusoidal representation", Proc. ICMC
        1987 (quadratic interpolation of the log-magnitude spectrum).
+    .. [2] A. V. Oppenheim and R. W. Schafer, *Discrete-Time Signal Processing*, 3rd ed.,
+       Pearson, 2010, Sec. 8.5 (Parseval's relation for the DFT).
     """
+    if lines not in LINES:
+        raise AnalysisError(f"Invalid value for 'lines': allowed {', '.join(map(repr, LINES))}, got {lines!r}")
     f, a = _axis(freq_hz, amplitude)
     search = _positive("search_hz", search_hz, allow_zero=True)
     x = float(f0_hz)
@@ -507,6 +567,8 @@ def nearest_peak(freq_hz, amplitude, f0_hz: float, *, search_hz: float) -> tuple
     peaks = inner[(seg[inner] >= left) & (seg[inner] >= right)]
     pick = peaks if peaks.size else inner
     i = j0 + int(pick[np.argmax(seg[pick])])
+    if lines == "band":
+        return float(f[i]), band_peak_amplitude(a, i)
     if 0 < i < f.size - 1:
         y0, y1, y2 = float(a[i - 1]), float(a[i]), float(a[i + 1])
         if y1 >= y0 and y1 >= y2 and min(y0, y1, y2) > 0:

@@ -22,7 +22,7 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import QObject, Qt, Signal
 
-from dsp.explain import amplitude_at, match_spacing, nearest_peak, tolerance_hz
+from dsp.explain import LINES, amplitude_at, match_spacing, nearest_peak, tolerance_hz
 from workbench import theme
 
 KINDS = ("harmonic", "sideband")
@@ -30,6 +30,18 @@ AXES = ("hz", "cpm", "order")
 UNIT_TEXT = {"hz": "Hz", "cpm": "CPM", "order": "orders"}
 CURSOR_PEN = "#111111"
 MARKER_PEN = "#5A5A5A"
+#: Sidebands ``s`` apart stay separate peaks on band-averaged lines ``r`` apart while
+#: ``s >= MIN_LINES_PER_SPACING * r`` (a line between two peaks to dip on).  Common practice, no source.
+MIN_LINES_PER_SPACING = 2.0
+
+
+def sidebands_merge(spacing: float, line_spacing: float) -> bool:
+    """True when sidebands ``spacing`` apart merge on band-averaged lines ``line_spacing`` apart.
+
+    Both in the same units.  They merge when ``spacing < MIN_LINES_PER_SPACING * line_spacing``
+    (common practice, no source: two peaks need a line between them to dip on).
+    """
+    return float(spacing) < MIN_LINES_PER_SPACING * float(line_spacing) * (1.0 - 1e-9)
 
 
 @dataclass(frozen=True)
@@ -51,6 +63,10 @@ class CursorData:
         Relative speed departure from the mean (0 on an order axis).
     units : str
         Amplitude units for the readout.
+    lines : {"fft", "band"}
+        Kind of lines drawn: ``"fft"`` for one windowed FFT, ``"band"`` for
+        band-averaged lines (peaks read by power sum, :func:`dsp.explain.nearest_peak`;
+        sideband families closer than :data:`MIN_LINES_PER_SPACING` lines name no shaft).
     """
 
     x: np.ndarray
@@ -60,10 +76,13 @@ class CursorData:
     table: Any = None
     speed_spread_frac: float = 0.0
     units: str = ""
+    lines: str = "fft"
 
     def __post_init__(self) -> None:
         if self.axis not in AXES:
             raise ValueError(f"Invalid value for 'axis': allowed {', '.join(map(repr, AXES))}, got {self.axis!r}")
+        if self.lines not in LINES:
+            raise ValueError(f"Invalid value for 'lines': allowed {', '.join(map(repr, LINES))}, got {self.lines!r}")
 
     @property
     def bin_width(self) -> float:
@@ -196,7 +215,7 @@ class _Cursor(QObject):
             return ReadoutRow(label, x, math.nan, math.nan, math.nan)
         a = amplitude_at(d.x, d.amplitude, x)
         # reach at least three lines: a harmonic multiplies the fundamental's offset
-        pf, pa = nearest_peak(d.x, d.amplitude, x, search_hz=max(d.tolerance(x), 3.0 * d.bin_width))
+        pf, pa = nearest_peak(d.x, d.amplitude, x, search_hz=max(d.tolerance(x), 3.0 * d.bin_width), lines=d.lines)
         return ReadoutRow(label, x, a, pf, pa)
 
     # subclasses
@@ -275,7 +294,9 @@ class SidebandCursor(_Cursor):
     Drag the centre line to move the whole family; drag the ``+1`` line to change
     the spacing.  The readout names the shaft whose rate equals the spacing
     within the tolerance (:func:`dsp.explain.match_spacing`), the mismatch in
-    display units and percent, and the amplitude at every marker.
+    display units and percent, and the amplitude at every marker.  On band-averaged
+    lines (``CursorData.lines == "band"``) a family spaced less than
+    :data:`MIN_LINES_PER_SPACING` lines apart merges, and no shaft is named.
     """
 
     kind = "sideband"
@@ -366,6 +387,12 @@ class SidebandCursor(_Cursor):
         self._update()
 
     # -- ownership
+    def sidebands_merged(self) -> bool:
+        """True when the data are band-averaged lines on which this family's sidebands merge
+        (spacing below :data:`MIN_LINES_PER_SPACING` lines, :func:`sidebands_merge`): no shaft is named then."""
+        d = self.data
+        return d is not None and d.lines == "band" and sidebands_merge(self._spacing, d.bin_width)
+
     def matches(self):
         """Rates within the tolerance of the spacing, best first (:func:`dsp.explain.match_spacing`)."""
         d = self.data
@@ -374,6 +401,9 @@ class SidebandCursor(_Cursor):
         return match_spacing(self._spacing, d.table, tolerance_hz=d.tolerance(self._spacing), scale=d.scale)
 
     def best_match(self):
+        """The owner of the family, or None (no rate in tolerance, or the sidebands merge on band lines)."""
+        if self.sidebands_merged():
+            return None
         m = self.matches()
         return m[0] if m else None
 
@@ -407,7 +437,7 @@ class SidebandCursor(_Cursor):
         if d is None:
             return
         reach = max(d.tolerance(self.centre), 3.0 * d.bin_width) if search is None else float(search)
-        f, _ = nearest_peak(d.x, d.amplitude, self.centre, search_hz=reach)
+        f, _ = nearest_peak(d.x, d.amplitude, self.centre, search_hz=reach, lines=d.lines)
         self.set_centre(f)
         self.finished.emit("snap")
 
@@ -417,7 +447,11 @@ class SidebandCursor(_Cursor):
         labels = [("carrier" if k == 0 else f"{k:+d}") for k in range(-self.n, self.n + 1)]
         rows = tuple(self._read(lab, x) for lab, x in zip(labels, self.marker_positions()))
         m = self.best_match()
-        if m is not None:
+        if self.sidebands_merged():
+            summary = (f"spacing {_fmt(self._spacing)} {unit} is less than {MIN_LINES_PER_SPACING:g} averaged "
+                       f"lines ({_fmt(d.bin_width)} {unit} apart): the sidebands merge on these lines, so no shaft "
+                       "is named; choose fine lines to read them")
+        elif m is not None:
             summary = (f"spacing {_fmt(self._spacing)} {unit} = {m.label} ({_fmt(m.rate_hz)} {unit}), "
                        f"off by {m.mismatch_hz:+.3g} {unit} ({m.mismatch_pct:+.2f} %)")
         else:
@@ -426,7 +460,7 @@ class SidebandCursor(_Cursor):
             if near is not None:
                 summary += f" (nearest: {near.label}, {near.mismatch_hz:+.3g} {unit}, {near.mismatch_pct:+.1f} %)"
         return Readout("sideband cursor", summary, rows,
-                       {"owner": None if m is None else m.shaft, "match": m})
+                       {"owner": None if m is None else m.shaft, "match": m, "merged": self.sidebands_merged()})
 
     def to_dict(self) -> dict[str, Any]:
         return {"kind": self.kind, "axis": self.data.axis if self.data is not None else "hz",

@@ -201,7 +201,7 @@ class CursorSet(QObject):
         if d is None or len(d.x) == 0:
             return None
         reach = 3.0 * d.bin_width if reach is None else max(float(reach), d.bin_width)
-        f, a = nearest_peak(d.x, d.amplitude, x, search_hz=reach)
+        f, a = nearest_peak(d.x, d.amplitude, x, search_hz=reach, lines=d.lines)
         order = math.nan
         explanations: tuple[Any, ...] = ()
         if d.table is not None:

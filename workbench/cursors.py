@@ -35,9 +35,9 @@ from PySide6.QtCore import Qt
 from PySide6.QtWidgets import (QAbstractItemView, QHeaderView, QLabel, QTableWidget, QTableWidgetItem,
                                QVBoxLayout, QWidget)
 
-from workbench.cursor_items import (AXES, CURSOR_PEN, KINDS, MARKER_PEN, UNIT_TEXT, CursorData,  # noqa: F401
-                                    HarmonicCursor, Readout, ReadoutRow, SidebandCursor, _Cursor, _fmt,
-                                    cursor_from_dict)
+from workbench.cursor_items import (AXES, CURSOR_PEN, KINDS, MARKER_PEN, MIN_LINES_PER_SPACING,  # noqa: F401
+                                    UNIT_TEXT, CursorData, HarmonicCursor, Readout, ReadoutRow, SidebandCursor,
+                                    _Cursor, _fmt, cursor_from_dict, sidebands_merge)
 from workbench.cursor_set import CursorSet, PeakInfo  # noqa: F401
 
 class CursorReadout(QWidget):
@@ -272,20 +272,22 @@ def attach_to_view(view, *, plot=None, families=None, labelled=None) -> CursorTo
 
 
 def show_on_view(view, table, x, amplitude, *, axis: str, scale: float, spread=None,
-                 speed_spread_frac: float = 0.0, units: str = "") -> None:
+                 speed_spread_frac: float = 0.0, units: str = "", lines: str = "fft") -> None:
     """Model lines and cursor data for the curve a view just drew (display units; see :class:`CursorData`).
 
     Nothing is computed here but the positions of lines: the cursors read ``x`` and
     ``amplitude`` as given.  ``spread`` is ``(min_hz, max_hz)`` of the table's
-    reference shaft, drawn on Hz and CPM axes.  The cursors saved in the session
+    reference shaft, drawn on Hz and CPM axes.  ``lines`` is ``"band"`` when the curve is
+    band-averaged lines (the cursors then read peaks by power sum and name no shaft for
+    merged sidebands, :class:`CursorData`), else ``"fft"``.  The cursors saved in the session
     for this view are drawn the first time (and after an undo or a session load).
     """
     view.overlay.set_table(table, axis=axis, scale=scale, spread=spread if axis != "order" else None)
     view.cursor_set.set_data(CursorData(np.asarray(x), np.asarray(amplitude), axis, float(scale), table,
-                                        float(speed_spread_frac), units))
+                                        float(speed_spread_frac), units, lines))
     view.cursor_tools.restore()
 
 
-__all__ = ["AXES", "KINDS", "UNIT_TEXT", "CursorData", "Readout", "ReadoutRow", "HarmonicCursor", "SidebandCursor",
+__all__ = ["AXES", "KINDS", "UNIT_TEXT", "MIN_LINES_PER_SPACING", "sidebands_merge", "CursorData", "Readout", "ReadoutRow", "HarmonicCursor", "SidebandCursor",
            "cursor_from_dict", "PeakInfo", "CursorSet", "CursorReadout", "CursorTools", "attach_to_view",
            "show_on_view"]

@@ -171,6 +171,56 @@ def test_snaps(analysis, plot):
         cursor.snap_spacing_to("gearbox")
 
 
+def test_sideband_cursor_on_band_lines_names_no_shaft_when_they_merge(analysis, plot):
+    from dsp.spectrum import band_spectrum
+
+    fine = hz_data(analysis)
+    table = analysis.frequencies
+    output_hz = table.shaft_hz(FAULT_SHAFT)
+
+    def band_data(resolution_hz):
+        b = band_spectrum(analysis.spectrum, resolution_hz)
+        return CursorData(np.asarray(b.freq_hz), np.asarray(b.amplitude), "hz", 1.0, table,
+                          fine.speed_spread_frac, "g", "band")
+
+    with pytest.raises(ValueError, match="Invalid value for 'lines': allowed 'fft', 'band', got 'coarse'"):
+        CursorData(fine.x, fine.amplitude, lines="coarse")
+    cursors = CursorSet(plot)
+    coarse = band_data(20.0)
+    assert coarse.bin_width == pytest.approx(20.0)
+    cursors.set_data(coarse)
+    cursor = cursors.add_sideband(400.0, output_hz)
+    # sidebands 26.7 Hz apart on lines 20 Hz apart: fewer than 2 lines per spacing, so they merge
+    # (common practice, no source: a line between two peaks to dip on)
+    readout = cursor.readout()
+    assert cursor.sidebands_merged() and readout.extra["merged"]
+    assert readout.extra["owner"] is None and cursor.best_match() is None
+    assert "no shaft is named" in readout.summary and "shaft rate" not in readout.summary
+    # the same cursor on the fine lines names the faulty shaft
+    cursors.set_data(fine)
+    readout = cursor.readout()
+    assert not cursor.sidebands_merged()
+    assert readout.extra["owner"] == FAULT_SHAFT   # dsp.synth truth
+    assert f"= {FAULT_SHAFT} shaft rate" in readout.summary
+    # band lines fine enough (0.75 Hz: 35 lines per spacing) name it too; the 400 Hz GMF tone lies near the edge
+    # of the 399.75 and 400.5 Hz lines and splits between them, and the power sum reads it whole
+    band = band_data(0.75)
+    cursors.set_data(band)
+    readout = cursor.readout()
+    i = int(np.argmin(np.abs(band.x - 400.0)))
+    assert band.amplitude[i + 1] > 0.3 * band.amplitude[i]   # the split: a large second line
+    assert readout.extra["owner"] == FAULT_SHAFT   # dsp.synth truth
+    f = np.asarray(analysis.spectrum.freq_hz)
+    a = np.asarray(analysis.spectrum.amplitude, dtype=float)
+    # the tone from the fine lines by Parseval: sqrt(sum A^2 / ENBW), Hann ENBW 1.5 lines (Harris 1978, Table I)
+    tone = float(np.sqrt(np.sum(a[np.abs(f - 400.0) < 1.0] ** 2) / 1.5))
+    carrier = next(r for r in readout.rows if r.label == "carrier")
+    assert carrier.peak_amplitude == pytest.approx(tone, rel=0.02)   # Parseval's relation (Oppenheim & Schafer)
+    assert carrier.peak_position in (band.x[i], band.x[i + 1])        # the centre of a line holding the GMF
+    info = cursors.read_peak(400.0)
+    assert info.amplitude == pytest.approx(tone, rel=0.02)           # Parseval's relation (Oppenheim & Schafer)
+
+
 def test_keyboard_nudges_by_one_line_and_ten(analysis, plot, qtbot):
     d = hz_data(analysis)
     cursors = CursorSet(plot)

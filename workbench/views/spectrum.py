@@ -24,15 +24,12 @@ import pyqtgraph as pg
 from PySide6.QtWidgets import QCheckBox, QComboBox, QDoubleSpinBox, QHBoxLayout, QLabel, QPushButton, QWidget
 
 from workbench import theme
-from workbench.cursors import attach_to_view, show_on_view
+from workbench.cursors import MIN_LINES_PER_SPACING, attach_to_view, show_on_view, sidebands_merge
 from workbench.views.base import AnalysisView, convert_acceleration, positive_for_log
 
 X_CHOICES = (("hz", "Hz"), ("cpm", "CPM"), ("order", "orders"))
 Y_CHOICES = (("g", "g"), ("m/s2", "m/s²"), ("mm/s", "mm/s"))
 LINE_CHOICES = ("fine", "averaged")
-#: Sidebands ``s`` apart stay separate peaks on lines ``r`` apart while ``s >= MIN_LINES_PER_SPACING * r``
-#: (a line between two peaks to dip on).  Common practice, no source.
-MIN_LINES_PER_SPACING = 2.0
 
 
 class SpectrumView(AnalysisView):
@@ -92,9 +89,9 @@ class SpectrumView(AnalysisView):
         self.band_region.setZValue(10)
         self.plot.addItem(self.band_region, ignoreBounds=True)
         self.band_region.sigRegionChangeFinished.connect(self._on_band_finished)
-        attach_to_view(self)   # model lines, harmonic and sideband cursors, their readout (workbench.cursors)
-        # after the readout's own refresh (connected first): averaged-line peak amplitudes and merged sidebands
-        self.cursor_set.updated.connect(self._adjust_readout)
+        # model lines, harmonic and sideband cursors, their readout (workbench.cursors); on averaged
+        # lines the cursors themselves read peaks by power sum and name no shaft for merged sidebands
+        attach_to_view(self)
         self._updating = False
         self._sync_controls()
         self.x_combo.currentIndexChanged.connect(self._on_controls)
@@ -213,6 +210,7 @@ class SpectrumView(AnalysisView):
         options = self.session.view_options
         shaft = self.session.selected_shaft
         units = options.spectrum_units
+        lines = "fft"   # "band" when the averaged lines are drawn (the cursors read them so)
         scale = self._scale_hz()
         if scale is None:  # no rate for this shaft: fall back to Hz
             scale = 1.0
@@ -234,6 +232,7 @@ class SpectrumView(AnalysisView):
             source = analysis.spectrum
             if options.spectrum_lines == "averaged" and self._averaged() is not None:
                 source = self._averaged()
+                lines = "band"
             x = np.asarray(source.freq_hz) * scale
             y = convert_acceleration(np.asarray(source.amplitude, dtype=float), self.sensor_units(), units)
         self._sync_lines_combo()
@@ -244,7 +243,8 @@ class SpectrumView(AnalysisView):
         unit_text = {"g": "g", "m/s2": "m/s²", "mm/s": "mm/s"}[units]
         self.plot.setLabel("left", f"amplitude ({unit_text} {scaling})")
         self.plot.setLabel("bottom", x_label)
-        self._show_model_lines(x, y, scale, unit_text, exact_orders=options.spectrum_x == "order" and units != "mm/s")
+        self._show_model_lines(x, y, scale, unit_text, exact_orders=options.spectrum_x == "order" and units != "mm/s",
+                               lines=lines)
         zoom = options.spectrum_zoom_hz
         if zoom is not None:
             self.plot.setXRange(zoom[0] * scale, zoom[1] * scale, padding=0)
@@ -273,50 +273,19 @@ class SpectrumView(AnalysisView):
         if analysis is None or options.spectrum_lines != "averaged" or self._lines_not_applicable() is not None:
             return []
         line_hz = _line_spacing_hz(self._averaged())
-        return [s.name for s in analysis.frequencies.shafts if s.hz < MIN_LINES_PER_SPACING * line_hz]
+        return [s.name for s in analysis.frequencies.shafts if sidebands_merge(s.hz, line_hz)]
 
     def sidebands_merged(self, cursor=None) -> bool:
         """True when averaged lines are drawn and the sideband ``cursor`` (default: the active one)
-        is spaced closer than ``MIN_LINES_PER_SPACING`` of those lines, so its sidebands merge."""
+        is spaced closer than ``MIN_LINES_PER_SPACING`` of those lines, so its sidebands merge
+        (:meth:`workbench.cursors.SidebandCursor.sidebands_merged`)."""
         cursor = self.cursor_set.active if cursor is None else cursor
-        if getattr(cursor, "kind", None) != "sideband" or cursor.data is None:
-            return False
-        options = self.session.view_options
-        if options.spectrum_lines != "averaged" or self._lines_not_applicable() is not None:
-            return False
-        return cursor.spacing < MIN_LINES_PER_SPACING * cursor.data.bin_width * (1.0 - 1e-9)
+        return getattr(cursor, "kind", None) == "sideband" and cursor.sidebands_merged()
 
     def averaged_shown(self) -> bool:
         """True when the curve drawn is the averaged spectrum."""
         return (self.analysis is not None and self.session.view_options.spectrum_lines == "averaged"
                 and self._lines_not_applicable() is None)
-
-    def _adjust_readout(self, *_args) -> None:
-        """On averaged lines: peak amplitudes by band power (see :func:`band_peak_amplitude`), and no
-        shaft named for a sideband cursor whose sidebands those lines merge."""
-        if not self.averaged_shown():
-            return
-        d = self.cursor_set.data
-        readout = self.cursor_readout
-        peak = self.cursor_set.last_peak
-        if peak is not None and d is not None:
-            old = f"amplitude {_fmt(peak.amplitude)} "
-            new = f"amplitude {_fmt(band_peak_amplitude(d.x, d.amplitude, peak.position))} "
-            readout.peak_label.setText(readout.peak_label.text().replace(old, new, 1))
-        cursor = self.cursor_set.active
-        if cursor is not None and cursor.data is not None:
-            for r, row in enumerate(cursor.readout().rows):
-                item = readout.table.item(r, 4)
-                if item is not None:
-                    item.setText(_fmt(band_peak_amplitude(d.x, d.amplitude, row.peak_position)))
-        if not self.sidebands_merged(cursor):
-            return
-        d = cursor.data
-        unit = {"hz": "Hz", "cpm": "CPM", "order": "orders"}.get(d.axis, "")
-        self.cursor_readout.summary.setText(
-            f"sideband cursor: spacing {cursor.spacing:.5g} {unit} is less than {MIN_LINES_PER_SPACING:g} averaged "
-            f"lines ({d.bin_width:.5g} {unit} apart): the sidebands merge on these lines, so no shaft is named; "
-            "choose fine lines to read them")
 
     def _averaged_caption(self) -> str:
         line_hz = _line_spacing_hz(self._averaged())
@@ -327,7 +296,8 @@ class SpectrumView(AnalysisView):
                      "merge on these lines: choose fine lines to read them")
         return text
 
-    def _show_model_lines(self, x, y, scale: float, unit_text: str, *, exact_orders: bool) -> None:
+    def _show_model_lines(self, x, y, scale: float, unit_text: str, *, exact_orders: bool,
+                          lines: str = "fft") -> None:
         """Overlays and cursor data for the curve just drawn (nothing recomputed)."""
         from dsp.explain import speed_spread_frac
 
@@ -338,7 +308,7 @@ class SpectrumView(AnalysisView):
         spread = (speed.min_hz, speed.max_hz) if same_shaft and not exact_orders else None
         frac = 0.0 if spread is None else speed_spread_frac(speed.min_hz, speed.mean_hz, speed.max_hz)
         show_on_view(self, table, x, y, axis=axis, scale=scale, spread=spread, speed_spread_frac=frac,
-                     units=unit_text)
+                     units=unit_text, lines=lines)
 
     def show_family(self, carrier_hz: float, spacing_hz: float, n: int = 3) -> None:
         """Zoom onto a sideband family and put the sideband cursor on it (carrier and spacing in Hz)."""
@@ -353,56 +323,6 @@ class SpectrumView(AnalysisView):
             self._updating = True
             self.band_region.setRegion((band[0] * scale, band[1] * scale))
             self._updating = False
-
-
-def band_peak_amplitude(x, amplitude, position: float) -> float:
-    """Amplitude of a tone read on band-averaged lines: the power sum of its line and the larger neighbour.
-
-    Each averaged line holds the RMS of its band (``dsp.spectrum.band_spectrum``), so
-    a tone's power lands in one line, or is split between two adjacent lines when
-    it sits near their common edge (each then reads down to ``1/sqrt(2)`` of the
-    tone, -3 dB).  The root of the summed squares of the peak line and its larger
-    neighbour gives the tone's amplitude in both cases (Parseval's theorem), to
-    within the noise power of one line.  The log-parabola refinement used on
-    window-shaped peaks of the fine lines does not apply to these flat-topped bands.
-
-    Parameters
-    ----------
-    x : ndarray
-        Evenly spaced axis of the averaged lines (display units).
-    amplitude : ndarray
-        Amplitude per line (linear, peak or RMS scaling).
-    position : float
-        Where the peak was found (display units).
-
-    Returns
-    -------
-    float
-        Tone amplitude, in the units of ``amplitude``.
-
-    References
-    ----------
-    .. [1] A. V. Oppenheim and R. W. Schafer, *Discrete-Time Signal Processing*, 3rd ed.,
-       Pearson, 2010, Sec. 8.5 (Parseval's relation for the DFT).
-    """
-    x = np.asarray(x, dtype=float)
-    a = np.asarray(amplitude, dtype=float)
-    if a.size == 0 or not np.isfinite(position):
-        return float("nan")
-    i = int(np.clip(np.searchsorted(x, position), 1, a.size - 1))
-    i = i - 1 if abs(x[i - 1] - position) <= abs(x[i] - position) else i
-    lo, hi = max(i - 1, 0), min(i + 2, a.size)
-    k = lo + int(np.argmax(a[lo:hi]))           # the peak line next to the position
-    left = a[k - 1] if k > 0 else 0.0
-    right = a[k + 1] if k + 1 < a.size else 0.0
-    return float(np.hypot(a[k], max(left, right)))
-
-
-def _fmt(v: float) -> str:
-    """Numbers as the cursor readout writes them (workbench.cursor_items)."""
-    if not np.isfinite(v):
-        return "n/a"
-    return f"{v:.5g}" if abs(v) < 1e5 else f"{v:.6g}"
 
 
 def _line_spacing_hz(spectrum) -> float:
