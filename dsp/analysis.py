@@ -344,28 +344,6 @@ def _smooth_length(n: int) -> int:
     return int(best)
 
 
-def _smooth_floor(n: int) -> int:
-    """Largest 2^a 3^b 5^c <= n (n >= 1)."""
-    best = 1
-    p2 = 1
-    while p2 <= n:
-        p3 = p2
-        while p3 <= n:
-            p5 = p3
-            while p5 * 5 <= n:
-                p5 *= 5
-            best = max(best, p5)
-            p3 *= 3
-        p2 *= 2
-    return best
-
-
-#: Revolutions per order-spectrum segment at most (resolution 1/2048 order is
-#: far finer than any sideband spacing of a real train); longer records are
-#: processed in chunks and power-averaged so the cost grows linearly.
-ORDER_SEGMENT_REVS = 2048
-
-
 def _sub_profile(profile, t0: float, t1: float):
     """The speed profile over ``t0..t1`` (s, same clock as ``profile``), with time 0 at ``t0``.
 
@@ -397,7 +375,9 @@ def _order_spectrum(x, fs: float, profile, max_order: float, check: Callable[[],
     total = float(profile.n_revs)
     if total <= 2.5 * ORDER_SEGMENT_REVS:  # one segment of every whole revolution (finest resolution)
         return order_spectrum(x, fs, profile, max_order=max_order, window="hann")
-    seg = _smooth_floor(ORDER_SEGMENT_REVS)
+    from .envelope import smooth_floor
+
+    seg = smooth_floor(ORDER_SEGMENT_REVS)
     n_chunks = int(total // (2 * seg))
     edges = np.linspace(0.0, total, n_chunks + 1)
     power = None

@@ -222,8 +222,8 @@ def _fast_len(n: int) -> int:
     return best
 
 
-def _smooth_floor(n: int) -> int:
-    """Largest 2**a 3**b 5**c <= n (n >= 1)."""
+def smooth_floor(n: int) -> int:
+    """Largest 2**a 3**b 5**c <= n (n >= 1): a length the FFT handles fast."""
     best = 1
     p5 = 1
     while p5 <= n:
@@ -639,7 +639,7 @@ def fast_kurtogram(x, fs: float, *, max_level: int = 6, max_samples: int = 2**17
     levels_n = min(int(max_level), level_cap)
     # length: 3 * 2**levels_n times a 5-smooth number, so that every node's FFT is fast
     block = 3 * 2**levels_n
-    n = block * _smooth_floor(n // block)
+    n = block * smooth_floor(n // block)
     i0 = (n_all - n) // 2
     seg = np.asarray(x[i0:i0 + n], dtype=np.float64)
     seg = seg - seg.mean()

@@ -201,3 +201,21 @@ def test_kurtogram_band_bookkeeping_at_every_level(fc_hz):
     for level, row, edges in zip(kg.levels, kg.kurtosis, kg.band_edges_hz):
         j = int(np.argmax(row))
         assert edges[j] <= fc_hz <= edges[j + 1], f"level {level:.1f}"
+
+
+def test_smooth_floor_is_the_largest_5_smooth_length():
+    from dsp.envelope import smooth_floor
+
+    def brute(n):  # definition of a 5-smooth (regular) number, checked by trial division
+        best = 1
+        for m in range(1, n + 1):
+            k = m
+            for p in (2, 3, 5):
+                while k % p == 0:
+                    k //= p
+            if k == 1:
+                best = m
+        return best
+
+    # common practice, no source: FFT lengths with factors 2, 3 and 5 only are fast
+    assert [smooth_floor(n) for n in range(1, 400)] == [brute(n) for n in range(1, 400)]
