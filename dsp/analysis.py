@@ -344,6 +344,12 @@ def _smooth_length(n: int) -> int:
     return int(best)
 
 
+#: Revolutions per order-spectrum segment at most (resolution 1/2048 order is
+#: far finer than any sideband spacing of a real train); longer records are
+#: processed in chunks and power-averaged so the cost grows linearly.
+ORDER_SEGMENT_REVS = 2048
+
+
 def _sub_profile(profile, t0: float, t1: float):
     """The speed profile over ``t0..t1`` (s, same clock as ``profile``), with time 0 at ``t0``.
 
