@@ -7,6 +7,7 @@ from dsp.errors import AnalysisError
 from dsp.orders import AngularSignal, angular_resample, order_spectrum
 from dsp.spectrum import window_values
 from dsp.tach import fyfe_munck_fit, fyfe_munck_time, nominal_profile
+from phase_laws import WanderProfile
 
 
 class QuadraticProfile:
@@ -32,30 +33,6 @@ class QuadraticProfile:
 
     def time_s(self, angle_rev):
         return fyfe_munck_time(angle_rev, self.b)
-
-
-class WanderProfile:
-    """Speed f0 * (1 + dev * sin(2 pi fm t)), angle 0 at t = 0."""
-
-    def __init__(self, f0, dev, fm, duration_s):
-        self.f0, self.dev, self.fm = f0, dev, fm
-        self.t_start_s, self.t_end_s = 0.0, duration_s
-        self.min_hz, self.max_hz, self.mean_hz = f0 * (1 - dev), f0 * (1 + dev), f0
-
-    def angle_rev(self, t_s):
-        t = np.asarray(t_s, dtype=float)
-        w = 2 * np.pi * self.fm
-        return self.f0 * t + self.f0 * self.dev * (1 - np.cos(w * t)) / w
-
-    def speed_hz(self, t_s):
-        return self.f0 * (1 + self.dev * np.sin(2 * np.pi * self.fm * np.asarray(t_s, dtype=float)))
-
-    def time_s(self, angle_rev):
-        a = np.asarray(angle_rev, dtype=float)
-        t = a / self.f0
-        for _ in range(40):
-            t = t - (self.angle_rev(t) - a) / self.speed_hz(t)
-        return t
 
 
 def test_quadratic_law_check_values():
