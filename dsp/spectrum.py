@@ -646,21 +646,18 @@ def spectrum_from_rfft(full: FullSpectrum, *, window: str = "hann", scaling: str
     n = full.n
     s1, s2 = _cosine_sums(window, n)
     amp = _full_amplitude(full, window, s1, scaling)
-    return Spectrum(
-        freq_hz=_readonly(full.freq_hz),
-        amplitude=_readonly(amp),
-        window=window,
-        nperseg=n,
-        noverlap=0,
-        n_averages=1,
-        scaling=scaling,
-        enbw_hz=full.fs * s2 / s1**2,
-        sample_rate_hz=full.fs,
-        units=units,
-        detrend=False,
-        average="mean",
-    )
+    return _record_spectrum(full, full.freq_hz, amp, window, scaling, units, enbw_hz=full.fs * s2 / s1**2)
 
+
+
+def _record_spectrum(full, freq_hz, amplitude, window: str, scaling: str, units: str, *, enbw_hz: float,
+                     **fields) -> Spectrum:
+    """A :class:`Spectrum` taken from the one rfft of the whole record (one segment, no overlap)."""
+    values = dict(n_averages=1, average="mean")
+    values.update(fields)
+    return Spectrum(freq_hz=_readonly(freq_hz), amplitude=_readonly(amplitude), window=window, nperseg=full.n,
+                    noverlap=0, scaling=scaling, enbw_hz=enbw_hz, sample_rate_hz=full.fs, units=units,
+                    detrend=False, **values)
 
 def zoom_spectrum(
     x_or_full,
@@ -720,20 +717,8 @@ def zoom_spectrum(
     xw = _windowed_bins(full, window, k0, k1)
     s1, s2 = _cosine_sums(window, n)
     amp = _amplitude_from_bins(xw, k0, n, s1, scaling)
-    return Spectrum(
-        freq_hz=_readonly(np.arange(k0, k1) * df),
-        amplitude=_readonly(amp),
-        window=window,
-        nperseg=n,
-        noverlap=0,
-        n_averages=1,
-        scaling=scaling,
-        enbw_hz=full.fs * s2 / s1**2,
-        sample_rate_hz=full.fs,
-        units=units,
-        detrend=False,
-        average="mean",
-    )
+    return _record_spectrum(full, np.arange(k0, k1) * df, amp, window, scaling, units,
+                            enbw_hz=full.fs * s2 / s1**2)
 
 
 def band_spectrum_from_rfft(
@@ -804,21 +789,8 @@ def band_spectrum_from_rfft(
     if scaling == "peak":
         line[1:] *= np.sqrt(2.0)
     freq = np.arange(line.size) * (m * df)
-    return Spectrum(
-        freq_hz=_readonly(freq),
-        amplitude=_readonly(line.astype(full.X.real.dtype, copy=False)),
-        window=window,
-        nperseg=n,
-        noverlap=0,
-        n_averages=m,
-        scaling=scaling,
-        enbw_hz=m * df,
-        sample_rate_hz=full.fs,
-        units=units,
-        detrend=False,
-        average="band",
-        line_spacing_hz=m * df,
-    )
+    return _record_spectrum(full, freq, line.astype(full.X.real.dtype, copy=False), window, scaling, units,
+                            enbw_hz=m * df, n_averages=m, average="band", line_spacing_hz=m * df)
 
 
 def band_spectrum(spectrum: Spectrum, resolution_hz: float, *, scaling: str | None = None) -> Spectrum:
