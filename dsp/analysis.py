@@ -201,7 +201,9 @@ def reference_speed(recording, model, x: np.ndarray | None, i0: int, i1: int, re
 
     Returns
     -------
-    (SpeedProfile, TachPulses or None)
+    (SpeedProfile, TachPulses or None, SpeedEstimate or None)
+        The profile; the tach pulses when the tach gave it; the mesh-phase estimate
+        (:class:`dsp.speed_estimate.SpeedEstimate`: method, mesh, harmonic) when that did.
     """
     from .errors import AnalysisError, TachError
     from .tach import detect_pulses, nominal_mismatch, nominal_profile, speed_profile
@@ -235,7 +237,7 @@ def reference_speed(recording, model, x: np.ndarray | None, i0: int, i1: int, re
                     f"pulses removed out of {pulses.n_found} found; check the tach signal if these are many."
                 )
             warn.extend(f"tach: {w}" for w in pulses.warnings)
-            return profile, pulses
+            return profile, pulses, None
     if rpm is None or not rpm > 0:
         raise TachError(
             "the model has neither a tach channel nor a nominal speed; give tach.channel or tach.nominal_rpm",
@@ -256,13 +258,13 @@ def reference_speed(recording, model, x: np.ndarray | None, i0: int, i1: int, re
             warn.append(f"no tach channel: the speed was estimated from harmonic {est.harmonic} of {est.mesh} "
                         f"({est.method}, {est.snr_db:.0f} dB above its band), mean {60 * est.mean_hz:.1f} rpm "
                         f"against {rpm:g} rpm nominal; check it on the speed view.")
-        return est.profile, None
+        return est.profile, None, est
     profile = nominal_profile(float(rpm), duration, reference)
     warn.append(
         f"no tach channel: the nominal speed {rpm:g} rpm is assumed constant; orders and TSA are only as "
         "good as that assumption."
     )
-    return profile, None
+    return profile, None, None
 
 
 def _estimation_signal(recording, model, i0: int, i1: int) -> np.ndarray:
@@ -695,7 +697,7 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
 
     step(0.05, "speed of the reference shaft")
     reference = model.tach.shaft or model.shafts[0].name
-    profile, pulses = reference_speed(recording, model, x, i0, i1, reference, warn)
+    profile, pulses, estimate = reference_speed(recording, model, x, i0, i1, reference, warn)
     spread = (profile.max_hz - profile.min_hz) / profile.mean_hz if profile.mean_hz > 0 else 0.0
     if spread > SPEED_SPREAD_WARN:
         warn.append(
@@ -800,6 +802,9 @@ def analyze(recording, model, settings: Settings = Settings(), progress: Progres
             "all_scores": all_scores,
             "speed_spread": spread,
             "envelope_order_tracked": env_tracked,
+            # how the speed was found without a tach (None with a tach or at the nominal speed)
+            "speed_estimate": None if estimate is None else {
+                "method": estimate.method, "mesh": estimate.mesh, "harmonic": estimate.harmonic},
         },
     )
 

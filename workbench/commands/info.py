@@ -60,7 +60,8 @@ def _speed(rec, train, warnings: list[str]):
     if tach.channel is None and tach.nominal_rpm is None:
         return None, None
     reference = tach.shaft or (train.shafts[0].name if train.shafts else "")
-    return reference_speed(rec, train, None, 0, rec.n_frames, reference, warnings)
+    profile, pulses, _estimate = reference_speed(rec, train, None, 0, rec.n_frames, reference, warnings)
+    return profile, pulses
 
 
 def collect(recording: str, model: str | None = None) -> dict:

@@ -7,7 +7,6 @@ for repaired tach pulses appears only when pulses were repaired.
 
 from __future__ import annotations
 
-import re
 
 import numpy as np
 import pyqtgraph as pg
@@ -16,27 +15,23 @@ from workbench import theme
 from workbench.views.base import AnalysisView
 
 N_POINTS = 2000
-# the analysis names the mesh it followed in its warning: "... estimated from harmonic 1 of stage 1 (mesh phase, ..."
-_ESTIMATE = re.compile(r"estimated from harmonic (\d+) of (.+?) \(([^,)]+)")
-
-
-def speed_source_text(profile, warnings=()) -> str:
+def speed_source_text(profile, estimate=None) -> str:
     """Where the speed came from, in the analyst's words.
 
     ``"speed from the tach"``, ``"speed estimated from the stage 1 mesh phase (no tach)"``
-    or ``"nominal speed (no tach)"``.
+    or ``"nominal speed (no tach)"``; ``estimate`` is ``Analysis.extras["speed_estimate"]``
+    (method, mesh, harmonic) when the speed was estimated.
     """
     source = getattr(profile, "source", "")
     if source == "tach":
         return "speed from the tach"
     if source == "estimated":
-        for text in warnings or ():
-            found = _ESTIMATE.search(str(text))
-            if found:
-                harmonic, mesh, method = int(found.group(1)), found.group(2), found.group(3).strip()
-                what = "phase" if "phase" in method else "line"
-                which = f"{mesh} mesh" if harmonic == 1 else f"{mesh} mesh harmonic {harmonic}"
-                return f"speed estimated from the {which} {what} (no tach)"
+        if estimate and estimate.get("mesh"):
+            harmonic = int(estimate.get("harmonic") or 1)
+            what = "phase" if "phase" in str(estimate.get("method", "")) else "line"
+            mesh = estimate["mesh"]
+            which = f"{mesh} mesh" if harmonic == 1 else f"{mesh} mesh harmonic {harmonic}"
+            return f"speed estimated from the {which} {what} (no tach)"
         return "speed estimated from a mesh line (no tach)"
     if source == "nominal":
         return "nominal speed (no tach)"
@@ -88,7 +83,7 @@ class SpeedView(AnalysisView):
         self.caption.setText(
             f"{shaft}: mean {profile.mean_hz * ratio * 60:.1f} rpm, "
             f"range {profile.min_hz * ratio * 60:.1f} to {profile.max_hz * ratio * 60:.1f} rpm; "
-            + speed_source_text(profile, getattr(analysis, "warnings", ()))
+            + speed_source_text(profile, (getattr(analysis, "extras", None) or {}).get("speed_estimate"))
             + (f"; {n_repaired} tach pulse{'s' if n_repaired != 1 else ''} repaired" if pulses is not None else ""))
         span = float(np.ptp(rpm))
         mid = float(np.mean(rpm))
